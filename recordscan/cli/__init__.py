@@ -1,0 +1,1 @@
+"""Command line: thin commands over the library, one module per command group."""

@@ -1,0 +1,12 @@
+"""Shared test fixtures."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+
+@pytest.fixture
+def rng() -> np.random.Generator:
+    """A seeded random generator (tests are deterministic)."""
+    return np.random.default_rng(20261202)
