@@ -1,0 +1,277 @@
+"""Harmonics, total harmonic distortion, envelopes and beat frequency.
+
+The arc voltage of a burning secondary arc is square-wave-like: an ideal square wave has odd
+harmonics of amplitude 1/k of the fundamental and a total harmonic distortion of
+``sqrt(π²/8 − 1) = 48.34 %`` (derived from its Fourier series, e.g. Oppenheim & Willsky,
+*Signals and Systems*, 2nd ed., 1997, §3.3). A recovery voltage is nearly sinusoidal.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from recordscan.signal.phasor import full_cycle_phasor, samples_per_cycle, sliding_rms
+
+__all__ = [
+    "BeatFit",
+    "envelope",
+    "fit_beat",
+    "harmonic_ratio",
+    "harmonic_spectrum",
+    "thd",
+]
+
+
+def _integer_cycle_weights(n: int, length: float) -> tuple[np.ndarray, float]:
+    """Weights over the last whole number of cycles of ``n`` samples (fractional oldest)."""
+    n_cyc = int(np.floor(n / length + 1e-9))
+    if n_cyc < 1:
+        raise ValueError("signal shorter than one cycle")
+    span = n_cyc * length
+    n_full = int(np.floor(span + 1e-9))
+    frac = span - n_full
+    w = np.zeros(n)
+    w[n - n_full :] = 1.0
+    if frac > 1e-9 and n - n_full - 1 >= 0:
+        w[n - n_full - 1] = frac
+    return w, span
+
+
+def harmonic_spectrum(
+    x: np.ndarray, *, fs_hz: float, f_hz: float, n_harmonics: int | None = None
+) -> np.ndarray:
+    """RMS magnitudes of the harmonics of ``x`` over its last whole number of cycles.
+
+    Parameters
+    ----------
+    x : numpy.ndarray
+        Uniform samples (at least one cycle).
+    fs_hz, f_hz : float
+        Sample rate and fundamental frequency.
+    n_harmonics : int, optional
+        Highest harmonic (default: the highest below the Nyquist frequency).
+
+    Returns
+    -------
+    numpy.ndarray
+        ``spec[h]`` = RMS magnitude of harmonic ``h`` (``spec[0]`` is the DC value's
+        magnitude).
+    """
+    x = np.asarray(x, dtype=np.float64)
+    length = samples_per_cycle(fs_hz, f_hz)
+    w, span = _integer_cycle_weights(x.shape[0], length)
+    h_max = int(np.floor((fs_hz / 2.0) / f_hz - 1e-9))
+    if n_harmonics is not None:
+        h_max = min(h_max, n_harmonics)
+    t = np.arange(x.shape[0]) / fs_hz
+    h = np.arange(h_max + 1)[:, None]
+    kern = np.exp(-1j * 2.0 * np.pi * f_hz * h * t[None, :])
+    sums = (kern * (w * x)[None, :]).sum(axis=1)
+    spec = np.abs(sums) * np.sqrt(2.0) / span
+    spec[0] = abs(sums[0].real) / span
+    return spec
+
+
+def thd(
+    x: np.ndarray,
+    *,
+    fs_hz: float,
+    f_hz: float,
+    method: str = "parseval",
+    n_harmonics: int | None = None,
+) -> float:
+    """Total harmonic distortion of ``x`` (ratio, not per cent) over whole cycles.
+
+    Parameters
+    ----------
+    x : numpy.ndarray
+        Uniform samples.
+    fs_hz, f_hz : float
+        Sample rate and fundamental frequency.
+    method : {"parseval", "harmonics"}
+        ``"parseval"``: ``sqrt(rms² − dc² − X1²)/X1`` — all non-fundamental content up to the
+        Nyquist frequency (aliases included). ``"harmonics"``: ``sqrt(Σ_{h≥2} X_h²)/X1`` over
+        the integer harmonics up to ``n_harmonics``.
+    n_harmonics : int, optional
+        Highest harmonic for ``method="harmonics"``.
+
+    Returns
+    -------
+    float
+        THD as a ratio (0.4834 for an ideal square wave).
+    """
+    x = np.asarray(x, dtype=np.float64)
+    if method == "harmonics":
+        spec = harmonic_spectrum(x, fs_hz=fs_hz, f_hz=f_hz, n_harmonics=n_harmonics)
+        if spec.shape[0] < 2 or spec[1] <= 0:
+            return float("nan")
+        return float(np.sqrt(np.sum(spec[2:] ** 2)) / spec[1])
+    if method != "parseval":
+        raise ValueError(f"unknown THD method {method!r}")
+    length = samples_per_cycle(fs_hz, f_hz)
+    w, span = _integer_cycle_weights(x.shape[0], length)
+    spec = harmonic_spectrum(x, fs_hz=fs_hz, f_hz=f_hz, n_harmonics=1)
+    ms = float(np.sum(w * x * x) / span)
+    rest = ms - spec[0] ** 2 - spec[1] ** 2
+    if spec[1] <= 0:
+        return float("nan")
+    return float(np.sqrt(max(rest, 0.0)) / spec[1])
+
+
+def harmonic_ratio(
+    x: np.ndarray,
+    *,
+    fs_hz: float,
+    f_hz: float,
+    harmonics: tuple[int, ...] = (3, 5),
+    t0_s: float = 0.0,
+) -> np.ndarray:
+    """Sliding one-cycle ratio of selected harmonics to the total RMS.
+
+    ``r = sqrt(Σ_h |X_h|²) / rms``. Relative to the window RMS (not the fundamental) the
+    ratio stays bounded when the fundamental vanishes (beat minima). For an ideal square
+    wave and harmonics (3, 5) it is ``(2·sqrt(2)/π)·sqrt(1/9 + 1/25) = 0.3500`` (derived
+    from the Fourier series); for a sinusoid it is 0. Broadband noise adds little because
+    only a few DFT bins are summed.
+
+    Parameters
+    ----------
+    x : numpy.ndarray
+        Uniform samples.
+    fs_hz, f_hz : float
+        Sample rate and fundamental frequency.
+    harmonics : tuple of int
+        Harmonic orders to sum; those at or above the Nyquist frequency are dropped.
+    t0_s : float
+        Instant of the first sample.
+
+    Returns
+    -------
+    numpy.ndarray
+        Ratio per sample (NaN before the first full cycle or where the RMS is zero).
+    """
+    x = np.asarray(x, dtype=np.float64)
+    length = samples_per_cycle(fs_hz, f_hz)
+    acc = np.zeros(x.shape[0])
+    for h in harmonics:
+        if h * f_hz >= 0.45 * fs_hz:
+            continue
+        ph = full_cycle_phasor(x, fs_hz=fs_hz, f_hz=f_hz, t0_s=t0_s, harmonic=h)
+        acc = acc + np.abs(ph) ** 2
+    rms = sliding_rms(x, length=length)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        r = np.sqrt(acc) / rms
+    r[~np.isfinite(r)] = np.nan
+    return r
+
+
+def envelope(x: np.ndarray) -> np.ndarray:
+    """Magnitude of the analytic signal (Hilbert transform) of ``x`` minus its mean."""
+    from scipy.signal import hilbert
+
+    x = np.asarray(x, dtype=np.float64)
+    if x.shape[0] < 2:
+        return np.abs(x)
+    return np.abs(hilbert(x - np.mean(x)))
+
+
+@dataclass(frozen=True)
+class BeatFit:
+    """A two-frequency fit ``A1·cos(ω·t + φ1) + A2·exp(−t/τ)·cos(ω_n·t + φ2)`` (no decay fit).
+
+    Attributes
+    ----------
+    forced_rms : float
+        RMS of the component at the power frequency (unit of the input).
+    free_rms : float
+        RMS of the second (free) component; 0 when none was found.
+    free_frequency_hz : float or None
+        Frequency of the free component.
+    beat_hz : float or None
+        ``|f − f_n|``, None when no second component was found.
+    peak : float
+        Largest absolute sample.
+    residual_rms : float
+        RMS of what the fit leaves.
+    """
+
+    forced_rms: float
+    free_rms: float
+    free_frequency_hz: float | None
+    beat_hz: float | None
+    peak: float
+    residual_rms: float
+
+
+def _ls_fit(x: np.ndarray, t: np.ndarray, freqs: list[float]) -> tuple[np.ndarray, float]:
+    cols = [np.ones_like(t)]
+    for f in freqs:
+        cols += [np.cos(2 * np.pi * f * t), np.sin(2 * np.pi * f * t)]
+    a = np.stack(cols, axis=1)
+    coef, *_ = np.linalg.lstsq(a, x, rcond=None)
+    res = x - a @ coef
+    return coef, float(np.sqrt(np.mean(res * res)))
+
+
+def fit_beat(
+    x: np.ndarray,
+    *,
+    fs_hz: float,
+    f_hz: float,
+    min_free_fraction: float = 0.1,
+) -> BeatFit:
+    """Fit the forced (power-frequency) and free components of a recovery voltage.
+
+    The forced component is a linear least-squares sinusoid at ``f_hz``; the free component's
+    frequency is searched in 0.3–1.7·``f_hz`` (coarse zero-padded spectrum of the residual,
+    then a bounded scalar search on the fit residual). The envelope then beats at
+    ``|f − f_n|`` (circuit result for an LC-coupled open phase; see docs/detection.md).
+
+    Parameters
+    ----------
+    x : numpy.ndarray
+        Uniform samples of the recovery voltage (a few cycles at least).
+    fs_hz, f_hz : float
+        Sample rate and power frequency.
+    min_free_fraction : float
+        The free component is reported only if its RMS exceeds this fraction of the forced
+        one and the fit improves by more than a third.
+
+    Returns
+    -------
+    BeatFit
+        The fitted components.
+    """
+    from scipy.optimize import minimize_scalar
+
+    x = np.asarray(x, dtype=np.float64)
+    t = np.arange(x.shape[0]) / fs_hz
+    peak = float(np.max(np.abs(x))) if x.size else 0.0
+    coef1, res1 = _ls_fit(x, t, [f_hz])
+    forced = float(np.hypot(coef1[1], coef1[2]) / np.sqrt(2.0))
+    dur = x.shape[0] / fs_hz
+    if dur < 3.0 / f_hz:
+        return BeatFit(forced, 0.0, None, None, peak, res1)
+    a = np.stack([np.ones_like(t), np.cos(2 * np.pi * f_hz * t), np.sin(2 * np.pi * f_hz * t)], 1)
+    resid = x - a @ coef1
+    n_fft = int(2 ** np.ceil(np.log2(max(8 * x.shape[0], 1024))))
+    spec = np.abs(np.fft.rfft(resid * np.hanning(x.shape[0]), n_fft))
+    freqs = np.fft.rfftfreq(n_fft, 1.0 / fs_hz)
+    band = (freqs > 0.3 * f_hz) & (freqs < 1.7 * f_hz)
+    if not np.any(band):
+        return BeatFit(forced, 0.0, None, None, peak, res1)
+    f_guess = float(freqs[band][np.argmax(spec[band])])
+    step = max(fs_hz / n_fft * 4, 1.0 / dur)
+    lo, hi = max(0.3 * f_hz, f_guess - step), min(1.7 * f_hz, f_guess + step)
+    opt = minimize_scalar(
+        lambda fn: _ls_fit(x, t, [f_hz, fn])[1], bounds=(lo, hi), method="bounded"
+    )
+    fn = float(opt.x)
+    coef2, res2 = _ls_fit(x, t, [f_hz, fn])
+    forced2 = float(np.hypot(coef2[1], coef2[2]) / np.sqrt(2.0))
+    free2 = float(np.hypot(coef2[3], coef2[4]) / np.sqrt(2.0))
+    if free2 > min_free_fraction * max(forced2, 1e-300) and res2 < res1 / 1.5:
+        return BeatFit(forced2, free2, fn, abs(f_hz - fn), peak, res2)
+    return BeatFit(forced, 0.0, None, None, peak, res1)
