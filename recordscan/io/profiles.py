@@ -1,0 +1,1076 @@
+"""Channel roles: automatic assignment from names and cfg fields, and recorder profiles.
+
+A recorder names its channels as its owner configured it: ``VA``, ``Va line``, ``U_L1``,
+``I L2``, ``LINE 1 V A``, ``IN``, ``3I0``, ``52a A``, ``BKR A OPEN``, ``TR L1``, ``79 CLOSE``…
+:func:`assign_roles` gives each channel the role it plays in the analysis (see
+:mod:`recordscan.core.roles`) from its cfg phase field, its unit and its name, and reports
+phases canonically as ``A``, ``B``, ``C`` (``N`` for residual quantities).
+
+It never guesses. A channel whose name does not say clearly what it is, or two channels that
+both look like the same role, keep ``role=None``; :func:`role_report` lists them and shows
+how to write a recorder profile (TOML, schema in ``docs/profiles.md``) that says which
+channel is which, including records that hold several line bays.
+
+Pole-status channels recorded in the *open* sense (``BKR A OPEN``, ``52b A``) are inverted
+to the *closed* sense that the ``pole_*`` roles mean (True = pole closed); each inversion is
+recorded in :attr:`recordscan.core.record.Record.processing`.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import fnmatch
+import re
+from collections.abc import Iterable, Mapping
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any, cast
+
+import numpy as np
+
+from recordscan.core import roles as R
+from recordscan.core.record import AnalogChannel, Record, StatusChannel
+from recordscan.errors import FormatError, MissingFileError, RoleError
+
+__all__ = [
+    "BayProfile",
+    "ChannelIssue",
+    "ChannelRef",
+    "Profile",
+    "RoleReport",
+    "assign_roles",
+    "classify_channel",
+    "load_profile",
+    "parse_profile",
+    "role_report",
+]
+
+PROFILE_SCHEMA = 1
+
+# --------------------------------------------------------------------------- vocabulary
+_PHASE_STRONG = {
+    "A": "A",
+    "B": "B",
+    "C": "C",
+    "R": "A",
+    "S": "B",
+    "T": "C",
+    "L1": "A",
+    "L2": "B",
+    "L3": "C",
+    "PHA": "A",
+    "PHB": "B",
+    "PHC": "C",
+}
+_PHASE_DIGIT = {"1": "A", "2": "B", "3": "C"}
+_COMPOUND = re.compile(r"^(V|U|I)(L1|L2|L3|A|B|C|R|S|T|1|2|3)(N|G|E)?$")
+_RESIDUAL_I = {"IN", "3I0", "3IO", "IRES", "IE", "IG", "IGND", "INEUTRAL"}
+_RESIDUAL_V = {"VN", "UN", "3V0", "3U0", "3VO", "3UO", "VRES", "URES", "UE", "VG"}
+_ZERO_SEQ = {"I0", "IO", "V0", "U0", "VO", "UO"}
+_PHASE_PHASE = re.compile(r"^(V|U)(AB|BC|CA|BA|CB|AC|L12|L23|L31|RS|ST|TR)$")
+_NEUTRAL_WORDS = {"N", "NEUTRAL", "NEUT", "RES", "RESID", "RESIDUAL", "E", "G", "GND", "EARTH"}
+_NEUTRAL_WORDS |= {"GROUND"}
+_Q_V = {"V", "U", "VOLT", "VOLTS", "VOLTAGE"}
+_Q_I = {"I", "CUR", "CURR", "CURRENT", "AMP", "AMPS"}
+_BUS = {"BUS", "BB", "SS", "BUSBAR"}
+_LINE = {"LINE", "LN"}
+_BAY_WORDS = {"LINE", "LN", "BAY", "CCT", "CKT", "CIRCUIT", "FDR", "FEEDER", "BKR", "CB", "MAIN"}
+_BAY_WORDS |= {"M", "RELAY", "BRK", "BREAKER", "GROUP", "GRP", "UNIT", "OUT", "OUTPUT", "IN"}
+_EQUIPMENT = {"VT", "CT", "CVT"}
+_ARC = {"ARC", "IARC", "VARC", "UARC"}
+_REACTOR = {"REACTOR", "REAC", "RX", "SHR", "SHUNTREACTOR"}
+_NR = {"NR", "NGR", "INR", "NRX"}
+_POLE_WORDS = {"POLE", "CB", "BKR", "BRK", "BREAKER", "CBR", "52", "52A", "52B", "CONTACT"}
+_CLOSED_SENSE = {"CLOSED", "CLSD", "CLS", "CLOSEDPOS"}
+_OPEN_SENSE = {"OPEN", "OPENED", "OPN", "OPENPOS"}
+_TRIP = {"TRIP", "TRP", "TR", "TRIPPED"}
+_THREE_POLE = {"3P", "3PH", "3POLE", "3PHASE", "3PT", "3PTRIP", "THREE", "ABC", "RST", "L123"}
+_RECLOSE = {"RECLOSE", "RECL", "RCL", "AUTORECLOSE", "RECLOSING", "RECLOSURE"}
+_CLOSE_CMD = {"CLOSE", "CLS_CMD", "CLOSECMD"}
+_AR_WORDS = {"AR", "79", "ARC79", "AUTO"}
+_NOT_RECLOSE = {"BLOCK", "BLK", "BLOCKED", "LOCKOUT", "LOCKED", "LO", "LOCK", "READY", "RDY"}
+_NOT_RECLOSE |= {"PROG", "PROGRESS", "INPROG", "FAIL", "FAILED", "INHIBIT", "ENABLE", "ENABLED"}
+_NOT_RECLOSE |= {"DISABLE", "DISABLED", "START", "INIT", "UNSUCCESSFUL", "ON", "OFF", "RESET"}
+_PERMIT = {"PERMIT", "EXTINCT", "EXTINCTION", "EXTINGUISHED", "EXTINGUISH"}
+_NOT_POLE = {"DISC", "DISCREPANCY", "DISCORD", "FAIL", "ALARM", "SUPV", "SUPERVISION", "TRIP"}
+_NOT_POLE |= {"COIL", "CMD", "COMMAND", "LOCKOUT", "SF6", "SPRING", "AIR", "GAS", "LOW"}
+
+_SPLIT = re.compile(r"[\s_\-./:,;()\[\]{}|+#=<>'\"*]+")
+
+
+def _tokens(text: str) -> list[str]:
+    """Split a channel name into upper-case tokens; ``52a``/``52b`` keep their meaning."""
+    out: list[str] = []
+    for raw in _SPLIT.split(text.strip()):
+        if not raw:
+            continue
+        tok = raw.upper()
+        if raw in ("52a", "52b"):
+            tok = "52" + raw[-1].upper()
+        out.append(tok)
+    return out
+
+
+def _canonical_phase_field(text: str) -> tuple[str | None, str]:
+    """Map a cfg ``ph`` text to a canonical phase.
+
+    Returns ``(phase, kind)`` with kind ``"phase"``, ``"neutral"``, ``"several"`` (a
+    phase-to-phase text such as ``AB``) or ``""`` (nothing usable).
+    """
+    t = _tokens(text)
+    if not t:
+        return None, ""
+    joined = "".join(t)
+    if joined in _PHASE_STRONG:
+        return _PHASE_STRONG[joined], "phase"
+    if joined in _PHASE_DIGIT:
+        return _PHASE_DIGIT[joined], "phase"
+    if joined in ("N", "G", "E", "0", "NEUTRAL", "RES", "GND", "3I0", "3V0", "IN", "VN"):
+        return "N", "neutral"
+    m = re.fullmatch(r"(A|B|C|R|S|T|L1|L2|L3)(N|G|E)", joined)
+    if m:
+        return _PHASE_STRONG[m.group(1)], "phase"
+    phases = {_PHASE_STRONG[x] for x in re.findall(r"L[123]|[ABCRST]", joined)}
+    if len(phases) > 1:
+        return None, "several"
+    return None, ""
+
+
+# --------------------------------------------------------------------------- classification
+@dataclass(frozen=True)
+class Candidate:
+    """What the automatic rules make of one channel.
+
+    Attributes
+    ----------
+    role : str or None
+        Role the channel looks like, None when it is not recognised.
+    phase : str or None
+        Canonical phase (``A``/``B``/``C``, ``N`` for residual), None when unknown.
+    invert : bool
+        True when the channel is a pole status in the open sense and must be inverted to
+        mean "pole closed".
+    reason : str
+        Why no role was recognised (empty when ``role`` is set).
+    digit_phase : bool
+        True when the phase came only from a digit (``I1``, ``V 2``), which could also be a
+        sequence component.
+    """
+
+    role: str | None
+    phase: str | None = None
+    invert: bool = False
+    reason: str = ""
+    digit_phase: bool = False
+
+
+def _phases_from_tokens(tokens: list[str]) -> tuple[set[str], set[str], set[str], bool]:
+    """Return (strong phases, weak digit phases, quantities, neutral word present)."""
+    strong: set[str] = set()
+    weak: set[str] = set()
+    qty: set[str] = set()
+    neutral = False
+    has_letter_phase = any(t in _PHASE_STRONG or _COMPOUND.match(t) for t in tokens)
+    for k, tok in enumerate(tokens):
+        prev = tokens[k - 1] if k else ""
+        if tok in _EQUIPMENT and has_letter_phase and len(tokens) > 1:
+            continue  # 'LINE VT A': VT is the instrument, not voltage of phase T
+        m = _COMPOUND.match(tok)
+        if m:
+            qty.add("V" if m.group(1) in "VU" else "I")
+            ph = m.group(2)
+            (weak if ph in _PHASE_DIGIT else strong).add(_PHASE_DIGIT.get(ph) or _PHASE_STRONG[ph])
+            continue
+        if tok in _PHASE_STRONG:
+            strong.add(_PHASE_STRONG[tok])
+        elif tok in _PHASE_DIGIT and prev not in _BAY_WORDS and not prev.isdigit():
+            weak.add(_PHASE_DIGIT[tok])
+        elif tok in _Q_V:
+            qty.add("V")
+        elif tok in _Q_I:
+            qty.add("I")
+        elif tok in _NEUTRAL_WORDS:
+            neutral = True
+    return strong, weak, qty, neutral
+
+
+def _resolve_phase(
+    field_phase: str | None, field_kind: str, strong: set[str], weak: set[str]
+) -> tuple[str | None, str]:
+    """Combine the cfg phase field and the name into one phase, or say what conflicts."""
+    if field_kind == "several":
+        return None, "phase field names more than one phase"
+    name_phases = strong or weak
+    if len(name_phases) > 1:
+        return None, f"name names phases {', '.join(sorted(name_phases))}"
+    name_phase = next(iter(name_phases), None)
+    if field_kind == "phase" and name_phase and name_phase != field_phase:
+        if strong:
+            return None, f"phase field says {field_phase} but the name says {name_phase}"
+        name_phase = None  # a stray digit in the name yields to the phase field
+    return field_phase if field_kind == "phase" else name_phase, ""
+
+
+def classify_channel(
+    channel: AnalogChannel | StatusChannel,
+) -> Candidate:
+    """Return the role a channel looks like from its phase field, unit and name.
+
+    Parameters
+    ----------
+    channel : AnalogChannel or StatusChannel
+        The channel; ``source_phase`` (or ``phase``), ``unit`` and ``name`` are used, and
+        the circuit text (``ccbm``) for bus/line words.
+
+    Returns
+    -------
+    Candidate
+        The recognised role (or None with a reason), canonical phase and inversion flag.
+    """
+    tokens = _tokens(channel.name)
+    circuit_tokens = _tokens(channel.circuit)
+    ph_text = channel.source_phase or (channel.phase or "")
+    field_phase, field_kind = _canonical_phase_field(ph_text)
+    if isinstance(channel, AnalogChannel):
+        return _classify_analog(channel, tokens, circuit_tokens, field_phase, field_kind)
+    return _classify_digital(tokens, field_phase, field_kind)
+
+
+def _classify_analog(
+    ch: AnalogChannel,
+    tokens: list[str],
+    circuit_tokens: list[str],
+    field_phase: str | None,
+    field_kind: str,
+) -> Candidate:
+    tokset = set(tokens)
+    unit_q = {"V": "V", "A": "I"}.get(ch.unit)
+    strong, weak, name_q, neutral_word = _phases_from_tokens(tokens)
+    for tok in tokens:
+        if tok in ("IARC",):
+            name_q.add("I")
+        elif tok in ("VARC", "UARC"):
+            name_q.add("V")
+        elif tok in _RESIDUAL_I | _NR:
+            name_q.add("I")
+        elif tok in _RESIDUAL_V:
+            name_q.add("V")
+    if len(name_q) > 1:
+        return Candidate(None, reason="name mentions both voltage and current")
+    nq = next(iter(name_q), None)
+    if unit_q and nq and unit_q != nq:
+        return Candidate(None, reason=f"unit {ch.unit!r} disagrees with the name ({_QWORD[nq]})")
+    q = unit_q or nq
+    if q is None:
+        return Candidate(None, reason=f"not a voltage or current (unit {ch.unit!r})")
+
+    if tokset & _ARC:
+        return Candidate(R.ARC_CURRENT if q == "I" else R.ARC_VOLTAGE)
+    if tokset & _NR or (tokset & _REACTOR and (neutral_word or tokset & {"STAR", "NP"})):
+        if q != "I":
+            return Candidate(None, reason="neutral-reactor quantity that is not a current")
+        return Candidate(R.I_NEUTRAL_REACTOR, phase="N")
+
+    if any(_PHASE_PHASE.match(t) for t in tokens):
+        return Candidate(None, reason="phase-to-phase voltage (no role for it)")
+    residual_token = tokset & (_RESIDUAL_I | _RESIDUAL_V)
+    if tokset & _ZERO_SEQ and not (strong or weak):
+        return Candidate(
+            None,
+            reason="zero-sequence name (I0/V0 may be a third of the residual 3I0/3V0); "
+            "map it in a profile if it is the residual",
+        )
+    phase, why = _resolve_phase(field_phase, field_kind, strong, weak)
+    if why:
+        return Candidate(None, reason=why)
+    residual = bool(residual_token) or (field_kind == "neutral" and phase is None)
+    if phase is None and neutral_word and not (strong or weak):
+        residual = True
+    if residual:
+        if phase is not None:
+            return Candidate(None, reason=f"both residual and phase {phase} in name/phase field")
+        return Candidate(R.I_RESIDUAL if q == "I" else R.V_RESIDUAL, phase="N")
+    if phase is None:
+        return Candidate(None, reason="no phase in the phase field or the name")
+    digit = not strong and field_kind != "phase"
+    if q == "I":
+        return Candidate(R.I_LINE[phase], phase=phase, digit_phase=digit)
+    where = set(tokens) | set(circuit_tokens)
+    is_bus = bool(where & _BUS)
+    is_line = bool(set(tokens) & _LINE) or (not is_bus and bool(set(circuit_tokens) & _LINE))
+    if is_bus and is_line:
+        if set(tokens) & _BUS and set(tokens) & _LINE:
+            return Candidate(None, reason="name says both bus and line")
+        is_bus = bool(set(tokens) & _BUS)
+    return Candidate((R.V_BUS if is_bus else R.V_LINE)[phase], phase=phase, digit_phase=digit)
+
+
+_QWORD = {"V": "voltage", "I": "current"}
+
+
+def _classify_digital(tokens: list[str], field_phase: str | None, field_kind: str) -> Candidate:
+    tokset = set(tokens)
+    joined = " ".join(tokens)
+    strong, weak, _, _ = _phases_from_tokens([t for t in tokens if t not in ("52A", "52B")])
+    if tokset & _PERMIT:
+        return Candidate(R.RECLOSE_PERMIT)
+    is_reclose = bool(tokset & _RECLOSE) or (bool(tokset & _AR_WORDS) and bool(tokset & _CLOSE_CMD))
+    is_reclose = is_reclose or ("CLOSE" in tokset and tokset & {"CMD", "COMMAND"} != set())
+    if is_reclose and not tokset & _NOT_RECLOSE:
+        return Candidate(R.RECLOSE)
+    if is_reclose:
+        return Candidate(
+            None, reason="a reclose status word (block/ready/lockout…), not the command"
+        )
+    if tokset & _TRIP:
+        three = bool(tokset & _THREE_POLE) or bool(re.search(r"\b3 (POLE|PH|PHASE|P)\b", joined))
+        if three:
+            return Candidate(R.TRIP_3P)
+        phase, why = _resolve_phase(field_phase, field_kind, strong, weak)
+        if why:
+            return Candidate(None, reason=why)
+        if phase is None:
+            return Candidate(None, reason="trip without a phase or a three-pole mark")
+        return Candidate(R.TRIP[phase], phase=phase)
+    if tokset & _POLE_WORDS and not tokset & _NOT_POLE:
+        closed = bool(tokset & (_CLOSED_SENSE | {"52A"}))
+        opened = bool(tokset & (_OPEN_SENSE | {"52B"}))
+        if closed == opened:
+            return Candidate(
+                None,
+                reason="pole status without a clear open/closed sense "
+                "(say invert = true/false in a profile)",
+            )
+        phase, why = _resolve_phase(field_phase, field_kind, strong, weak)
+        if why:
+            return Candidate(None, reason=why)
+        if phase is None:
+            return Candidate(None, reason="pole status without a phase")
+        return Candidate(R.POLE_CLOSED[phase], phase=phase, invert=opened)
+    return Candidate(None, reason="name not recognised")
+
+
+# --------------------------------------------------------------------------- profiles
+@dataclass(frozen=True)
+class ChannelRef:
+    """One explicit channel → role line of a profile.
+
+    Attributes
+    ----------
+    role : str
+        Role name (see :mod:`recordscan.core.roles`).
+    name : str or None
+        Channel name as recorded (matched exactly, then ignoring case and spacing).
+    index : int or None
+        1-based channel number in the cfg (analog and digital are numbered separately).
+    invert : bool
+        Digital channels only: invert the recorded values (an open-sense pole status).
+    """
+
+    role: str
+    name: str | None = None
+    index: int | None = None
+    invert: bool = False
+
+    def describe(self) -> str:
+        """Short text naming the referenced channel."""
+        return f"{self.name!r}" if self.name is not None else f"channel {self.index}"
+
+
+@dataclass(frozen=True)
+class BayProfile:
+    """The effective profile of one line bay.
+
+    Attributes
+    ----------
+    name : str
+        Bay name ('' for a profile without bays).
+    analog, digital : tuple of ChannelRef
+        Explicit role assignments.
+    match : tuple of str
+        Shell-style patterns (``"LINE 1 *"``); when given, automatic assignment considers
+        only channels whose name or circuit text matches one of them.
+    auto : bool
+        Whether channels the profile does not name get roles automatically.
+    line_file : pathlib.Path or None
+        Line description file of the bay, resolved against the profile's folder.
+    description : str
+        Free text.
+    """
+
+    name: str = ""
+    analog: tuple[ChannelRef, ...] = ()
+    digital: tuple[ChannelRef, ...] = ()
+    match: tuple[str, ...] = ()
+    auto: bool = True
+    line_file: Path | None = None
+    description: str = ""
+
+
+@dataclass(frozen=True)
+class Profile:
+    """A recorder profile: explicit channel roles, bays and line description files.
+
+    Attributes
+    ----------
+    path : pathlib.Path or None
+        The TOML file it came from.
+    name, description : str
+        Free text naming the recorder.
+    bay : str or None
+        The bay to use when the profile describes several (``bay = "..."``).
+    common : BayProfile
+        Settings given at the top level; they apply to every bay.
+    bays : tuple of BayProfile
+        Per-bay settings (``[bays.NAME]`` tables); empty for a single-bay profile.
+    """
+
+    path: Path | None = None
+    name: str = ""
+    description: str = ""
+    bay: str | None = None
+    common: BayProfile = dataclasses.field(default_factory=BayProfile)
+    bays: tuple[BayProfile, ...] = ()
+
+    @property
+    def bay_names(self) -> tuple[str, ...]:
+        """Names of the bays the profile describes."""
+        return tuple(b.name for b in self.bays)
+
+    def select(self, bay: str | None = None) -> BayProfile:
+        """Return the effective settings for one bay (top-level settings merged in).
+
+        Parameters
+        ----------
+        bay : str, optional
+            Bay name; defaults to the profile's ``bay`` key, or the only bay.
+
+        Raises
+        ------
+        RoleError
+            When the bay is unknown, or several bays exist and none was chosen.
+        """
+        where = str(self.path) if self.path else "profile"
+        choice = bay or self.bay
+        if not self.bays:
+            if bay:
+                raise RoleError(f"{where}: no bay named {bay!r}; the profile has no [bays] tables")
+            return self.common
+        if choice is None:
+            if len(self.bays) == 1:
+                choice = self.bays[0].name
+            else:
+                raise RoleError(
+                    f"{where}: the profile describes bays {', '.join(self.bay_names)}; choose "
+                    'one with bay = "..." in the profile or the --bay option'
+                )
+        for b in self.bays:
+            if b.name == choice:
+                return _merge(self.common, b)
+        raise RoleError(f"{where}: no bay named {choice!r} (bays: {', '.join(self.bay_names)})")
+
+
+def _merge(common: BayProfile, bay: BayProfile) -> BayProfile:
+    def merged(a: tuple[ChannelRef, ...], b: tuple[ChannelRef, ...]) -> tuple[ChannelRef, ...]:
+        own = {r.role for r in b}
+        return (*[r for r in a if r.role not in own], *b)
+
+    return BayProfile(
+        name=bay.name,
+        analog=merged(common.analog, bay.analog),
+        digital=merged(common.digital, bay.digital),
+        match=bay.match or common.match,
+        auto=bay.auto and common.auto,
+        line_file=bay.line_file or common.line_file,
+        description=bay.description or common.description,
+    )
+
+
+_TOP_KEYS = {"schema", "name", "description", "bay", "auto", "match", "line", "analog"}
+_TOP_KEYS |= {"digital", "bays"}
+_BAY_KEYS = {"description", "auto", "match", "line", "analog", "digital"}
+
+
+def load_profile(path: str | Path) -> Profile:
+    """Read a recorder profile (TOML, schema in ``docs/profiles.md``).
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The profile file.
+
+    Returns
+    -------
+    Profile
+
+    Raises
+    ------
+    MissingFileError
+        The file is not there.
+    FormatError
+        The file is not TOML, or a key is unknown or has a bad value; the message names the
+        file and the key.
+    """
+    try:
+        import tomllib
+    except ModuleNotFoundError:  # pragma: no cover - Python 3.10
+        import tomli as tomllib  # type: ignore[no-redef]
+
+    p = Path(path)
+    try:
+        raw = p.read_bytes()
+    except FileNotFoundError:
+        raise MissingFileError(f"{p}: recorder profile not found") from None
+    except OSError as exc:
+        raise FormatError(f"{p}: cannot read recorder profile ({exc.strerror})") from None
+    try:
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        raise FormatError(f"{p}: profile is not UTF-8 text (byte {exc.start})") from None
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise FormatError(f"{p}: not valid TOML: {exc}") from None
+    return parse_profile(data, source=p)
+
+
+def parse_profile(data: Mapping[str, Any], *, source: str | Path | None = None) -> Profile:
+    """Build a :class:`Profile` from parsed TOML data.
+
+    Parameters
+    ----------
+    data : Mapping
+        The parsed document.
+    source : str or pathlib.Path, optional
+        Where it came from; relative ``line`` paths are resolved against its folder and
+        error messages name it.
+
+    Raises
+    ------
+    FormatError
+        A key is unknown or has a bad value.
+    """
+    src = Path(source) if source is not None else None
+    where = str(src) if src is not None else "profile"
+    base = src.parent if src is not None else Path()
+
+    def fail(key: str, what: str) -> FormatError:
+        return FormatError(f"{where}: key '{key}': {what}")
+
+    _check_keys(data, _TOP_KEYS, "", fail)
+    schema = data.get("schema", PROFILE_SCHEMA)
+    if not isinstance(schema, int) or isinstance(schema, bool) or schema != PROFILE_SCHEMA:
+        raise fail("schema", f"unsupported schema {schema!r} (this version reads {PROFILE_SCHEMA})")
+    name = _str(data, "name", "", fail)
+    bay = data.get("bay")
+    if bay is not None and (not isinstance(bay, str) or not bay.strip()):
+        raise fail("bay", "must be a non-empty string naming one of the [bays] tables")
+    common = _parse_bay(data, "", "", base, fail)
+    bays_raw = data.get("bays", {})
+    if not isinstance(bays_raw, dict):
+        raise fail("bays", "must be a table of [bays.NAME] tables")
+    bays = []
+    for bname, braw in bays_raw.items():
+        key = f"bays.{bname}"
+        if not isinstance(braw, dict):
+            raise fail(key, "must be a table")
+        _check_keys(braw, _BAY_KEYS, key + ".", fail)
+        bays.append(_parse_bay(braw, bname, key + ".", base, fail))
+    if bay is not None and bays and bay not in bays_raw:
+        raise fail("bay", f"no bay named {bay!r} (bays: {', '.join(bays_raw)})")
+    return Profile(
+        path=src,
+        name=name,
+        description=_str(data, "description", "", fail),
+        bay=bay,
+        common=common,
+        bays=tuple(bays),
+    )
+
+
+def _check_keys(data: Mapping[str, Any], allowed: set[str], prefix: str, fail: Any) -> None:
+    for key in data:
+        if key not in allowed:
+            raise fail(prefix + key, f"unknown key (allowed here: {', '.join(sorted(allowed))})")
+
+
+def _str(data: Mapping[str, Any], key: str, prefix: str, fail: Any) -> str:
+    value = data.get(key, "")
+    if not isinstance(value, str):
+        raise fail(prefix + key, "must be a string")
+    return value
+
+
+def _parse_bay(
+    data: Mapping[str, Any], name: str, prefix: str, base: Path, fail: Any
+) -> BayProfile:
+    auto = data.get("auto", True)
+    if not isinstance(auto, bool):
+        raise fail(prefix + "auto", "must be true or false")
+    match = data.get("match", [])
+    if isinstance(match, str):
+        match = [match]
+    if not isinstance(match, list) or not all(isinstance(m, str) and m for m in match):
+        raise fail(prefix + "match", "must be a pattern string or a list of them")
+    line = data.get("line")
+    if line is not None and (not isinstance(line, str) or not line.strip()):
+        raise fail(prefix + "line", "must be the path of a line description file")
+    line_file = (
+        None if line is None else (base / line if not Path(line).is_absolute() else Path(line))
+    )
+    analog = _parse_refs(data.get("analog", {}), prefix + "analog", R.ANALOG_ROLES, False, fail)
+    digital = _parse_refs(data.get("digital", {}), prefix + "digital", R.DIGITAL_ROLES, True, fail)
+    return BayProfile(
+        name=name,
+        analog=analog,
+        digital=digital,
+        match=tuple(match),
+        auto=auto,
+        line_file=line_file,
+        description=_str(data, "description", prefix, fail),
+    )
+
+
+def _parse_refs(
+    table: Any, key: str, allowed: frozenset[str], digital: bool, fail: Any
+) -> tuple[ChannelRef, ...]:
+    if not isinstance(table, dict):
+        raise fail(key, "must be a table of role = channel lines")
+    refs: list[ChannelRef] = []
+    seen: dict[tuple[str, object], str] = {}
+    for role, value in table.items():
+        k = f"{key}.{role}"
+        if role not in allowed:
+            other = "digital" if role in R.DIGITAL_ROLES else "analog"
+            hint = (
+                f"it is a {other} role; put it under [{other}]"
+                if role in R.ALL_ROLES
+                else f"unknown role (known: {', '.join(sorted(allowed))})"
+            )
+            raise fail(k, hint)
+        invert = False
+        if isinstance(value, dict):
+            extra = set(value) - {"name", "index", "invert"}
+            if extra:
+                raise fail(k, f"unknown field {sorted(extra)[0]!r} (use name, index, invert)")
+            if ("name" in value) == ("index" in value):
+                raise fail(k, "give exactly one of name or index")
+            invert = value.get("invert", False)
+            if not isinstance(invert, bool):
+                raise fail(k + ".invert", "must be true or false")
+            if invert and not digital:
+                raise fail(k + ".invert", "only digital channels can be inverted")
+            value = value.get("name", value.get("index"))
+        if isinstance(value, bool) or not isinstance(value, (str, int)):
+            raise fail(k, "must be a channel name, a 1-based channel number or a table")
+        if isinstance(value, int):
+            if value < 1:
+                raise fail(k, f"channel number {value} must be 1 or more")
+            ref = ChannelRef(role=role, index=value, invert=invert)
+            ident: tuple[str, object] = ("index", value)
+        else:
+            if not value.strip():
+                raise fail(k, "channel name is empty")
+            ref = ChannelRef(role=role, name=value, invert=invert)
+            ident = ("name", _norm(value))
+        if ident in seen:
+            raise fail(k, f"{ref.describe()} already has role {seen[ident]!r}")
+        seen[ident] = role
+        refs.append(ref)
+    return tuple(refs)
+
+
+def _norm(name: str) -> str:
+    return " ".join(name.split()).casefold()
+
+
+# --------------------------------------------------------------------------- assignment
+Channel = AnalogChannel | StatusChannel
+
+
+@dataclass(frozen=True)
+class ChannelIssue:
+    """A channel left without a role and why.
+
+    Attributes
+    ----------
+    kind : str
+        ``"analog"`` or ``"digital"``.
+    index : int
+        1-based channel number in the file (position when built in memory).
+    name : str
+        Channel name.
+    reason : str
+        Why no role was given.
+    """
+
+    kind: str
+    index: int
+    name: str
+    reason: str
+
+    def label(self) -> str:
+        """``analog 3 'VA'``-style label."""
+        return f"{self.kind} {self.index} {self.name!r}"
+
+
+@dataclass(frozen=True)
+class RoleReport:
+    """Which roles were given and which channels were left without one.
+
+    Attributes
+    ----------
+    source : str
+        The record's file ('' in memory).
+    assigned : Mapping[str, str]
+        Role → channel name.
+    ambiguous : Mapping[str, tuple of ChannelIssue]
+        Role → the channels that all look like it (none of them was given the role).
+    unassigned : tuple of ChannelIssue
+        Channels without a role that are not in ``ambiguous``.
+    inverted : tuple of str
+        Names of digital channels inverted to the closed sense.
+    """
+
+    source: str
+    assigned: Mapping[str, str]
+    ambiguous: Mapping[str, tuple[ChannelIssue, ...]]
+    unassigned: tuple[ChannelIssue, ...]
+    inverted: tuple[str, ...] = ()
+
+    @property
+    def ok(self) -> bool:
+        """True when no channel is ambiguous or unassigned."""
+        return not self.ambiguous and not self.unassigned
+
+    def message(self) -> str:
+        """A readable account of the problems and a profile to fix them ('' when none)."""
+        if self.ok:
+            return ""
+        where = self.source or "record"
+        lines = [
+            f"{where}: {len(self.unassigned)} channel(s) without a role, "
+            f"{len(self.ambiguous)} role(s) with several candidates (no guess was made)."
+        ]
+        for role, issues in self.ambiguous.items():
+            names = ", ".join(i.label() for i in issues)
+            lines.append(f"  ambiguous {role}: {names}")
+        for issue in self.unassigned:
+            lines.append(f"  no role: {issue.label()}: {issue.reason}")
+        lines.append(
+            "Channels without a role are not used by the analysis. To say which channel is "
+            "which, write a recorder profile (docs/profiles.md) and pass it with --profile, "
+            "for example:"
+        )
+        lines.extend("  " + s for s in self.profile_example().splitlines())
+        return "\n".join(lines)
+
+    def profile_example(self) -> str:
+        """A profile text that names the ambiguous roles (candidates listed for a choice)."""
+        analog: list[str] = []
+        digital: list[str] = []
+        for role, issues in self.ambiguous.items():
+            first, rest = issues[0], issues[1:]
+            alts = " or ".join(repr(i.name) for i in rest)
+            line = f"{role} = {_toml_str(first.name)}  # or {alts}"
+            (digital if role in R.DIGITAL_ROLES else analog).append(line)
+        for issue in self.unassigned[: max(0, 3 - len(analog) - len(digital))]:
+            line = f"# ROLE = {_toml_str(issue.name)}  # give {issue.label()} a role"
+            (digital if issue.kind == "digital" else analog).append(line)
+        out = ["schema = 1"]
+        if analog:
+            out += ["[analog]", *analog]
+        if digital:
+            out += ["[digital]", *digital]
+        if any(i.kind == "digital" and "sense" in i.reason for i in self.unassigned):
+            out.append('# pole_a = { name = "...", invert = true }  # open-sense pole status')
+        return "\n".join(out)
+
+
+def _toml_str(text: str) -> str:
+    return '"' + text.replace("\\", "\\\\").replace('"', '\\"') + '"'
+
+
+_INVERT_STEP = re.compile(r"^inverted digital channel (\d+) ")
+
+
+def _index(ch: Channel, pos: int) -> int:
+    return ch.source_index or pos + 1
+
+
+def _find(channels: tuple[Channel, ...], ref: ChannelRef, kind: str, where: str) -> int:
+    if ref.index is not None:
+        for pos, ch in enumerate(channels):
+            if _index(ch, pos) == ref.index:
+                return pos
+        raise RoleError(
+            f"{where}: {kind} role {ref.role}: the record has no {kind} channel {ref.index} "
+            f"({len(channels)} {kind} channels)"
+        )
+    assert ref.name is not None
+    exact = [p for p, ch in enumerate(channels) if ch.name.strip() == ref.name.strip()]
+    if len(exact) == 1:
+        return exact[0]
+    loose = [p for p, ch in enumerate(channels) if _norm(ch.name) == _norm(ref.name)]
+    if len(exact) > 1 or len(loose) > 1:
+        raise RoleError(
+            f"{where}: {kind} role {ref.role}: several channels are named {ref.name!r}; "
+            "refer to the channel by index instead"
+        )
+    if not loose:
+        names = ", ".join(repr(ch.name) for ch in channels[:12])
+        more = ", …" if len(channels) > 12 else ""
+        raise RoleError(
+            f"{where}: {kind} role {ref.role}: no {kind} channel named {ref.name!r} "
+            f"(channels: {names}{more})"
+        )
+    return loose[0]
+
+
+def _matches(ch: Channel, patterns: tuple[str, ...]) -> bool:
+    if not patterns:
+        return True
+    texts = (ch.name.casefold(), ch.circuit.casefold())
+    return any(fnmatch.fnmatchcase(t, p.casefold()) for t in texts for p in patterns)
+
+
+@dataclass
+class _Plan:
+    roles: dict[tuple[str, int], str]
+    phases: dict[tuple[str, int], str]
+    invert: set[tuple[str, int]]
+    ambiguous: dict[str, list[tuple[str, int]]]
+    issues: dict[tuple[str, int], str]
+
+
+def _plan(record: Record, bay: BayProfile | None, where: str) -> _Plan:
+    chans: dict[str, tuple[Channel, ...]] = {"analog": record.analog, "digital": record.digital}
+    roles: dict[tuple[str, int], str] = {}
+    phases: dict[tuple[str, int], str] = {}
+    invert: set[tuple[str, int]] = set()
+    owner: dict[str, tuple[str, int]] = {}
+    # 1. roles the record already carries
+    for kind, chs in chans.items():
+        for pos, ch in enumerate(chs):
+            if ch.role:
+                roles[(kind, pos)] = ch.role
+                owner[ch.role] = (kind, pos)
+    # 2. explicit profile lines override them
+    if bay is not None:
+        for kind, refs in (("analog", bay.analog), ("digital", bay.digital)):
+            for ref in refs:
+                pos = _find(chans[kind], ref, kind, where)
+                key = (kind, pos)
+                old_owner = owner.get(ref.role)
+                if old_owner is not None and old_owner != key:
+                    roles.pop(old_owner, None)
+                old_role = roles.get(key)
+                if old_role is not None and old_role != ref.role:
+                    owner.pop(old_role, None)
+                roles[key] = ref.role
+                owner[ref.role] = key
+                ph = R.phase_of(ref.role)
+                if ph or ref.role in (R.I_RESIDUAL, R.V_RESIDUAL, R.I_NEUTRAL_REACTOR):
+                    phases[key] = ph or "N"
+                if ref.invert:
+                    invert.add(key)
+    fixed = set(roles)
+    # 3. automatic rules for the rest
+    candidates: dict[str, list[tuple[str, int]]] = {}
+    issues: dict[tuple[str, int], str] = {}
+    auto = bay.auto if bay is not None else True
+    zero_seq = any(set(_tokens(ch.name)) & _ZERO_SEQ for ch in record.analog)
+    patterns = bay.match if bay is not None else ()
+    for kind, chs in chans.items():
+        for pos, ch in enumerate(chs):
+            key = (kind, pos)
+            if key in fixed:
+                continue
+            if not auto:
+                issues[key] = "not named in the profile (auto = false)"
+                continue
+            if not _matches(ch, patterns):
+                issues[key] = f"outside the bay's channels ({', '.join(patterns)})"
+                continue
+            cand = classify_channel(ch)
+            if cand.digit_phase and zero_seq:
+                cand = Candidate(
+                    None,
+                    reason="phase only from a digit while the record also has I0/V0: "
+                    "it may be a sequence component",
+                )
+            if cand.phase and cand.phase != "N":
+                phases[key] = cand.phase
+            if cand.role is None:
+                issues[key] = cand.reason
+            elif cand.role in owner:
+                okind, opos = owner[cand.role]
+                issues[key] = (
+                    f"looks like {cand.role}, which {chans[okind][opos].name!r} already has"
+                )
+            else:
+                candidates.setdefault(cand.role, []).append(key)
+                if cand.invert:
+                    invert.add(key)
+                if cand.phase:
+                    phases[key] = cand.phase
+    ambiguous: dict[str, list[tuple[str, int]]] = {}
+    for role, keys in candidates.items():
+        if len(keys) == 1:
+            roles[keys[0]] = role
+        else:
+            ambiguous[role] = keys
+            invert.difference_update(keys)
+    return _Plan(roles, phases, invert, ambiguous, issues)
+
+
+def _selected_bay(profile: Profile | str | Path | None, bay: str | None) -> BayProfile | None:
+    if profile is None:
+        if bay:
+            raise RoleError(f"bay {bay!r} was chosen but no recorder profile was given")
+        return None
+    prof = profile if isinstance(profile, Profile) else load_profile(profile)
+    return prof.select(bay)
+
+
+def assign_roles(
+    record: Record,
+    *,
+    profile: Profile | str | Path | None = None,
+    bay: str | None = None,
+) -> Record:
+    """Give each channel its role, from a recorder profile and the automatic rules.
+
+    Parameters
+    ----------
+    record : Record
+        The record; roles it already carries are kept unless the profile says otherwise.
+    profile : Profile, str or pathlib.Path, optional
+        A recorder profile or the path of its TOML file. Its explicit lines win; the
+        automatic rules fill in the rest unless the profile says ``auto = false``.
+    bay : str, optional
+        Which line bay of the profile to use (overrides the profile's ``bay`` key).
+
+    Returns
+    -------
+    Record
+        A new record with ``role`` and canonical ``phase`` set on the channels it could
+        place, open-sense pole channels inverted, and one processing step per change.
+        Channels it could not place keep ``role=None``; see :func:`role_report`.
+
+    Raises
+    ------
+    FormatError, MissingFileError
+        The profile file is bad or missing.
+    RoleError
+        The profile names a channel or bay the record does not have.
+    """
+    where = record.provenance.path or "record"
+    src = profile.path if isinstance(profile, Profile) else profile
+    if src is not None:
+        where = f"{where}: profile {src}"
+    sel = _selected_bay(profile, bay)
+    plan = _plan(record, sel, where)
+    steps: list[str] = []
+
+    def update(kind: str, pos: int, ch: Channel) -> Channel:
+        key = (kind, pos)
+        role = plan.roles.get(key)
+        phase = plan.phases.get(key, ch.phase)
+        changes: dict[str, Any] = {}
+        if role != ch.role:
+            changes["role"] = role
+        if phase != ch.phase:
+            changes["phase"] = phase
+        if isinstance(ch, StatusChannel) and key in plan.invert and role is not None:
+            changes["values"] = np.logical_not(ch.values)
+            steps.append(
+                f"inverted digital channel {_index(ch, pos)} {ch.name!r} to the closed sense "
+                f"of {role}"
+            )
+        return dataclasses.replace(ch, **changes) if changes else ch
+
+    analog = cast(
+        list[AnalogChannel], [update("analog", p, c) for p, c in enumerate(record.analog)]
+    )
+    digital = cast(
+        list[StatusChannel], [update("digital", p, c) for p, c in enumerate(record.digital)]
+    )
+    label = "assign_roles(auto)"
+    if sel is not None:
+        label = f"assign_roles(profile={str(src or 'in memory')!r}, bay={sel.name!r})"
+    out = record.with_channels(
+        analog=analog,
+        digital=digital,
+        step=label,
+    )
+    if steps:
+        out = dataclasses.replace(out, processing=(*out.processing, *steps))
+    return out
+
+
+def role_report(
+    record: Record,
+    *,
+    profile: Profile | str | Path | None = None,
+    bay: str | None = None,
+) -> RoleReport:
+    """Say which roles a record's channels have and which channels are left without one.
+
+    Parameters
+    ----------
+    record : Record
+        A record after :func:`assign_roles`.
+    profile, bay : optional
+        The same profile and bay given to :func:`assign_roles`, so that the report can
+        tell channels outside the bay or not named with ``auto = false``.
+
+    Returns
+    -------
+    RoleReport
+    """
+    where = record.provenance.path
+    sel = _selected_bay(profile, bay)
+    if sel is not None:
+        # only the automatic part matters here: explicit lines were applied already
+        sel = dataclasses.replace(sel, analog=(), digital=())
+    plan = _plan(record, sel, where or "record")
+    chans: dict[str, tuple[Channel, ...]] = {"analog": record.analog, "digital": record.digital}
+
+    def issue(key: tuple[str, int], reason: str) -> ChannelIssue:
+        kind, pos = key
+        ch = chans[kind][pos]
+        return ChannelIssue(kind, _index(ch, pos), ch.name, reason)
+
+    ambiguous = {
+        role: tuple(issue(k, f"one of {len(keys)} candidates for {role}") for k in keys)
+        for role, keys in plan.ambiguous.items()
+    }
+    in_amb = {k for keys in plan.ambiguous.values() for k in keys}
+    unassigned = tuple(
+        issue(k, reason)
+        for kind in ("analog", "digital")
+        for k, reason in sorted(plan.issues.items())
+        if k[0] == kind and k not in in_amb and chans[kind][k[1]].role is None
+    )
+    inverted_idx = {
+        int(m.group(1)) for s in record.processing if (m := _INVERT_STEP.match(s)) is not None
+    }
+    inverted = tuple(
+        ch.name for p, ch in enumerate(record.digital) if _index(ch, p) in inverted_idx
+    )
+    return RoleReport(
+        source=where,
+        assigned=dict(record.roles),
+        ambiguous=ambiguous,
+        unassigned=unassigned,
+        inverted=inverted,
+    )
+
+
+def channels_by_kind(record: Record) -> Iterable[tuple[str, int, Channel]]:
+    """Yield ``(kind, 1-based index, channel)`` for every channel, analog first."""
+    for pos, ch in enumerate(record.analog):
+        yield "analog", _index(ch, pos), ch
+    for pos, ch in enumerate(record.digital):
+        yield "digital", _index(ch, pos), ch
