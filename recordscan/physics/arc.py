@@ -64,6 +64,10 @@ __all__ = [
     "extinction_scalar",
     "find_restrike",
     "hot_channel_strength_scalar",
+    "johns_primary_time_constant_s",
+    "johns_secondary_gradient_v_per_m",
+    "johns_secondary_parameters",
+    "johns_secondary_time_constant_s",
     "simulate_current_driven",
     "stationary_conductance",
     "stationary_conductance_scalar",
@@ -198,7 +202,7 @@ def hot_channel_strength_scalar(
     if t_since_extinction_s <= 0.0:
         return 0.0
     slope = 5.0 + 1620.0 * t_burn_s / (2.15 + abs(i_s_rms_a))
-    return rate_scale * slope * _KV_PER_CM_S_TO_V_PER_M_S * t_since_extinction_s * l_m
+    return rate_scale * slope * 1.0e5 * t_since_extinction_s * l_m
 
 
 def dielectric_strength_scalar(
@@ -228,7 +232,11 @@ def dielectric_strength_scalar(
     rate_scale
         Multiplier on the recovery slope (1.0 = Johns et al.).
     """
-    v = hot_channel_strength_scalar(t_since_extinction_s, t_burn_s, i_s_rms_a, l_m, rate_scale)
+    # self-contained (no call to another Python function) so that numba.njit can compile it
+    if t_since_extinction_s <= 0.0:
+        return 0.0
+    slope = 5.0 + 1620.0 * t_burn_s / (2.15 + abs(i_s_rms_a))
+    v = rate_scale * slope * 1.0e5 * t_since_extinction_s * l_m
     return v if v < ceiling_v else ceiling_v
 
 
@@ -488,6 +496,59 @@ def find_restrike(
     w = rec.strength_v(t, t_burn_s=t_burn_s, i_s_rms_a=i_s_rms_a, l_m=l_m, l0_m=l0_m)
     hit = np.flatnonzero((t > 0.0) & (v > w))
     return int(hit[0]) if hit.size else None
+
+
+# --------------------------------------------------------------------------- Johns et al. set
+# Johns, Aggarwal & Song (1994) give their arc in cm and A; the coefficients are from memory
+# (widely reproduced, e.g. Dudurych et al. 2004) and whether their currents are peak or rms
+# is unverified. Converted here to metres: 1 V/cm = 100 V/m, l_cm = 100·l_m.
+
+
+def johns_secondary_gradient_v_per_m(i_s_a: ArrayLike) -> float | np.ndarray:
+    """Secondary-arc voltage gradient ``V_s = 75·I_s^−0.4`` V/cm of Johns et al. (1994), in V/m."""
+    i = np.abs(np.asarray(i_s_a, dtype=float))
+    _check(bool(np.all(i > 0.0)), "secondary-arc current must be non-zero")
+    out = 100.0 * 75.0 * i**-0.4
+    return float(out) if out.ndim == 0 else out
+
+
+def johns_secondary_time_constant_s(i_s_a: ArrayLike, l_m: ArrayLike) -> float | np.ndarray:
+    """Secondary-arc time constant ``τ_s = 2.51e-3·I_s^1.4/l_s`` (l_s in cm) of Johns et al."""
+    i = np.abs(np.asarray(i_s_a, dtype=float))
+    ell = np.asarray(l_m, dtype=float)
+    _check(bool(np.all(ell > 0.0)), "arc length must be > 0")
+    out = 2.51e-3 * i**1.4 / (100.0 * ell)
+    return float(out) if out.ndim == 0 else out
+
+
+def johns_primary_time_constant_s(i_p_a: ArrayLike, l_m: ArrayLike) -> float | np.ndarray:
+    """Primary-arc time constant ``τ_p = 2.85e-5·I_p/l_p`` (l_p in cm) of Johns et al."""
+    i = np.abs(np.asarray(i_p_a, dtype=float))
+    ell = np.asarray(l_m, dtype=float)
+    _check(bool(np.all(ell > 0.0)), "arc length must be > 0")
+    out = 2.85e-5 * i / (100.0 * ell)
+    return float(out) if out.ndim == 0 else out
+
+
+def johns_secondary_parameters(
+    i_s_a: float, *, l0_m: float = 3.0, base: ArcParameters | None = None
+) -> ArcParameters:
+    """The Johns et al. secondary arc at current ``i_s_a`` expressed in the Kizilcay form.
+
+    ``G = |i|/(V_s·l)`` is the Kizilcay G with ``u0 = V_s(I_s)`` and ``r0 = 0``;
+    ``τ_s ∝ 1/l`` is ``τ0·(l/l0)^α`` with ``α = −1`` and ``τ0 = τ_s(I_s, l0)``. Extinction
+    thresholds are taken from ``base`` (default :class:`ArcParameters`).
+    """
+    b = base if base is not None else ArcParameters()
+    return ArcParameters(
+        u0_v_per_m=float(johns_secondary_gradient_v_per_m(i_s_a)),
+        r0_ohm_per_m=0.0,
+        tau0_s=float(johns_secondary_time_constant_s(i_s_a, l0_m)),
+        alpha=-1.0,
+        l0_m=l0_m,
+        g_min_siemens_per_m=b.g_min_siemens_per_m,
+        dr_dt_ohm_per_m_s=b.dr_dt_ohm_per_m_s,
+    )
 
 
 # --------------------------------------------------------------------------- vectorised model
