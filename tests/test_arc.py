@@ -265,6 +265,16 @@ def test_scalar_functions_compile_with_numba() -> None:
     assert length(1, 0.1, 10.0, 0.5, 3.0) == elongation_length_scalar(1, 0.1, 10.0, 0.5, 3.0)
     d_args = (0.01, 0.2, 20.0, 3.0, 1.0e6, 1.0)
     assert diel(*d_args) == dielectric_strength_scalar(*d_args)
+    hot = numba.njit(arc.hot_channel_strength_scalar)
+    assert hot(0.01, 0.2, 20.0, 3.0, 1.0) == arc.hot_channel_strength_scalar(
+        0.01, 0.2, 20.0, 3.0, 1.0
+    )
+    big_g = numba.njit(arc.stationary_conductance_scalar)
+    assert big_g(-7.0, 3.0, 900.0, 0.022) == arc.stationary_conductance_scalar(
+        -7.0, 3.0, 900.0, 0.022
+    )
+    tau = numba.njit(arc.time_constant_scalar)
+    assert tau(6.0, 1e-3, -0.5, 3.0) == arc.time_constant_scalar(6.0, 1e-3, -0.5, 3.0)
 
 
 @settings(max_examples=60, deadline=None)
