@@ -284,7 +284,9 @@ def _check_result(result: Any) -> str:
 
 def _line_fields(line: Any) -> dict[str, Any]:
     """A line description (dataclass from ``load_line`` or plain dict) → ``lines`` columns."""
-    if dataclasses.is_dataclass(line) and not isinstance(line, type):
+    if hasattr(line, "to_dict") and callable(line.to_dict):
+        data = _jsonable(line.to_dict())
+    elif dataclasses.is_dataclass(line) and not isinstance(line, type):
         data = _jsonable(line)
     elif isinstance(line, Mapping):
         data = _jsonable(dict(line))
@@ -295,7 +297,12 @@ def _line_fields(line: Any) -> dict[str, Any]:
         raise FormatError("line description: 'name' must be non-empty text")
     where = f"line description {name!r}"
     reactors = data.get("reactors")
+    if reactors is None and ("reactor_from" in data or "reactor_to" in data):
+        reactors = [r for r in (data.get("reactor_from"), data.get("reactor_to")) if r]
     compensation = data.get("compensation")
+    if isinstance(compensation, (int, float)) and not isinstance(compensation, bool):
+        # a positive-sequence shunt compensation degree (fraction)
+        compensation = f"{100.0 * compensation:.0f} % shunt" if compensation > 0 else "none"
     if compensation is None and reactors is not None:
         compensation = "shunt reactors" if reactors else "none"
     return {
@@ -368,6 +375,11 @@ class Store:
     def url(self) -> str:
         """Database URL with any password hidden."""
         return self.engine.url.render_as_string(hide_password=True)
+
+    @property
+    def url_display(self) -> str:
+        """Same as :attr:`url` (database URL with any password hidden)."""
+        return self.url
 
     @property
     def dialect(self) -> str:
