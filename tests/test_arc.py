@@ -501,6 +501,13 @@ def test_bad_inputs_raise_model_error() -> None:
         LinearElongation(v_m_per_s=-1.0)
     with pytest.raises(ModelError):
         DielectricRecovery(gap_m=0.0)
+    with pytest.raises(ModelError, match="gap factor"):
+        DielectricRecovery(gap_factor=0.5)
+    with pytest.raises(ModelError, match="finite number"):
+        ArcParameters(alpha=True)
+    # numpy scalars (as a fitter passes them) are accepted and come back as plain floats
+    p = ArcParameters(u0_v_per_m=np.float64(1000.0), l0_m=np.int64(2))
+    assert p.as_tuple()[0] == 1000.0 and type(p.as_tuple()[4]) is float
 
 
 # --------------------------------------------------------------------------- benchmark

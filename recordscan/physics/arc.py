@@ -35,6 +35,7 @@ recovery voltage that outruns it restrikes the arc (race model, Slepian).
 from __future__ import annotations
 
 import math
+import numbers
 from collections.abc import Callable
 from dataclasses import dataclass, field, fields
 from typing import Any
@@ -289,7 +290,7 @@ class ArcParameters:
         for f in fields(self):
             v = getattr(self, f.name)
             _check(
-                isinstance(v, (int, float)) and math.isfinite(v),
+                isinstance(v, numbers.Real) and not isinstance(v, bool) and math.isfinite(v),
                 f"arc parameter {f.name} must be a finite number, got {v!r}",
             )
         _check(self.u0_v_per_m > 0.0, f"u0_v_per_m must be > 0, got {self.u0_v_per_m}")
@@ -431,8 +432,7 @@ class DielectricRecovery:
             math.isfinite(self.rate_scale) and self.rate_scale > 0.0,
             f"rate_scale must be > 0, got {self.rate_scale}",
         )
-        if self.gap_m is not None:
-            self.ceiling_for(self.gap_m)  # validates through gap.py
+        self.ceiling_for(1.0)  # validates gap_m, gap_factor and altitude_m through gap.py
 
     def ceiling_for(self, l0_m: float) -> float:
         """Cold-gap ceiling [V crest] for an arc path whose clearance is ``gap_m`` or ``l0_m``."""
