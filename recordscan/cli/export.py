@@ -27,6 +27,7 @@ if TYPE_CHECKING:  # pragma: no cover
 
 TARGETS = ("csv", "parquet", "comtrade")
 DATA_FORMATS = ("ASCII", "BINARY", "BINARY32", "FLOAT32")
+_ON_LIMIT_S = 1e-9
 
 
 class ExportError(RecordScanError, ValueError):
@@ -70,16 +71,20 @@ def clip(
         offset = record.trigger_s
     if start_s is not None and end_s is not None and end_s <= start_s:
         raise ExportError(f"{where}: the window end {end_s} s is not after its start {start_s} s")
-    t0 = None if start_s is None else start_s + offset
-    t1 = None if end_s is None else end_s + offset
+    # a sample within 1 ns (the finest COMTRADE time step) of a limit sits on it, so that
+    # decimal limits such as 0.013 s cut where the engineer means despite binary rounding
+    t0 = None if start_s is None else start_s + offset - _ON_LIMIT_S
+    t1 = None if end_s is None else end_s + offset - _ON_LIMIT_S
     if start_s is None and end_s is None:
         return record
     try:
         return record.slice_time(t0, t1)
     except ValueError:
         last = record.duration_s
+        lo = "start" if start_s is None else f"{start_s + offset:g}"
+        hi = "end" if end_s is None else f"{end_s + offset:g}"
         raise ExportError(
-            f"{where}: the window [{t0}, {t1}) s holds no samples (the record spans 0 to "
+            f"{where}: the window [{lo}, {hi}) s holds no samples (the record spans 0 to "
             f"{last:.6f} s from its first sample)"
         ) from None
 
