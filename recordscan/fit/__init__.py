@@ -1,1 +1,18 @@
-"""recordscan.fit."""
+"""Arc-model parameters from records (direct: arc current and voltage measured)."""
+
+from recordscan.fit.direct import DirectFitOptions, fit_direct
+from recordscan.fit.record import ArcPeriods, find_arc_periods, fit_record
+from recordscan.fit.result import ArcFitResult, ParameterEstimate
+
+fit_arc = fit_record
+
+__all__ = [
+    "ArcFitResult",
+    "ArcPeriods",
+    "DirectFitOptions",
+    "ParameterEstimate",
+    "find_arc_periods",
+    "fit_arc",
+    "fit_direct",
+    "fit_record",
+]
