@@ -15,7 +15,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from numpy.typing import ArrayLike
 from scipy.integrate import solve_ivp
-from scipy.optimize import minimize_scalar
+from scipy.optimize import brentq, minimize_scalar
 
 from recordscan.errors import ModelError
 from recordscan.physics import arc
@@ -435,6 +435,32 @@ def test_restrike_when_recovery_voltage_outruns_dielectric_strength() -> None:
         find_restrike(t, fast, t_burn_s=0.2, i_s_rms_a=20.0, l_m=3.0, l0_m=3.0, recovery=quick)
         is None
     )
+
+
+def test_restrike_instant_matches_root_of_the_race() -> None:
+    # A capacitive circuit interrupted at a current zero recovers as v = V(1 - cos wt) (derived;
+    # V: uncompensated 500 kV line, V_rec/V_ph = 0.153846, derived). Against a linear withstand
+    # s*t the race is lost iff s < V*w*max_x (1 - cos x)/x (derived). Independent references:
+    # scipy.optimize.brentq for the crossing instant, minimize_scalar for the maximum.
+    v_hat = 0.4 / 2.6 * 500e3 / math.sqrt(3.0) * math.sqrt(2.0)
+    w = 2 * math.pi * 60.0
+    kw = {"t_burn_s": 0.02, "i_s_rms_a": 30.0, "l_m": 3.0, "l0_m": 3.0}
+    slope_1 = (5.0 + 1620.0 * 0.02 / 32.15) * 1e5 * 3.0  # V/s at rate_scale 1
+    t = np.arange(0, 20001) * 1e-6
+    v = v_hat * (1.0 - np.cos(w * t))
+
+    rec = DielectricRecovery()
+    root = brentq(lambda x: v_hat * (1 - math.cos(w * x)) - slope_1 * x, 1e-4, math.pi / w)
+    idx = find_restrike(t, v, recovery=rec, **kw)
+    assert idx is not None
+    assert t[idx - 1] <= root <= t[idx]
+
+    best = minimize_scalar(lambda x: -(1 - math.cos(x)) / x, bounds=(0.5, 3.0), method="bounded")
+    critical_scale = v_hat * w * (-best.fun) / slope_1
+    slow = DielectricRecovery(rate_scale=0.98 * critical_scale)
+    fast = DielectricRecovery(rate_scale=1.02 * critical_scale)
+    assert find_restrike(t, v, recovery=slow, **kw) is not None
+    assert find_restrike(t, v, recovery=fast, **kw) is None
 
 
 def test_withstand_capped_by_cold_gap() -> None:
