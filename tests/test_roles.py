@@ -429,3 +429,22 @@ def test_roles_do_not_depend_on_order_and_are_idempotent(analog_pick, dnames) ->
     # "VA" and "LINE 2 V A" together are ambiguous; either alone is v_a
     both = {"VA", "LINE 2 V A"} <= set(names)
     assert (by_name.get("VA") == R.V_LINE["A"]) == ("VA" in names and not both)
+
+
+def test_documented_example_profile_loads(tmp_path: Path) -> None:
+    """The example in docs/profiles.md is a valid profile and means what the text says."""
+    doc = (Path(__file__).resolve().parents[1] / "docs" / "profiles.md").read_text("utf-8")
+    text = doc.split("```toml\n", 1)[1].split("```", 1)[0]
+    (tmp_path / "ashcombe.toml").write_text(text, encoding="utf-8")
+    prof = load_profile(tmp_path / "ashcombe.toml")
+    assert prof.bay_names == ("brightwater-1", "corrow-2")
+    bw = prof.select()
+    assert bw.name == "brightwater-1" and bw.match == ("BW1 *", "LINE 1 *")
+    assert {r.role: (r.name, r.index, r.invert) for r in bw.digital} == {
+        "reclose": ("AR CLOSE", None, False),
+        "pole_a": ("BW1 CB A", None, True),
+        "pole_b": (None, 5, True),
+    }
+    assert bw.line_file == tmp_path / "../lines/ashcombe-brightwater.toml"
+    cr = prof.select("corrow-2")
+    assert cr.match == ("CR2 *",) and [r.role for r in cr.digital] == ["reclose"]
