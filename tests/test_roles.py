@@ -151,6 +151,9 @@ def test_digital_naming_styles(name: str, ph: str, role: str, inverted: bool) ->
         (_d("AR BLOCK"), "not recognised"),
         (_d("79 LOCKOUT CLOSE"), "not the command"),
         (_d("POLE DISCREPANCY"), "not recognised"),
+        (_d("50BF TRIP A"), "not the trip command"),  # IEEE C37.2 50BF: breaker failure
+        (_d("DTT RX TRIP"), "not the trip command"),  # direct transfer trip received
+        (_d("TRIP CIRCUIT A FAIL"), "not the trip command"),
     ],
 )
 def test_unclear_channels_get_no_role(channel, why: str) -> None:

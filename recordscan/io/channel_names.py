@@ -54,6 +54,10 @@ _POLE_WORDS = {"POLE", "CB", "BKR", "BRK", "BREAKER", "CBR", "52", "52A", "52B",
 _CLOSED_SENSE = {"CLOSED", "CLSD", "CLS", "CLOSEDPOS"}
 _OPEN_SENSE = {"OPEN", "OPENED", "OPN", "OPENPOS"}
 _TRIP = {"TRIP", "TRP", "TR", "TRIPPED"}
+# breaker-failure retrips, teleprotection signals and supervision alarms are not the trip
+_NOT_TRIP = {"BF", "50BF", "CBF", "RETRIP", "RX", "RECV", "RECEIVE", "RECEIVED", "TX", "SEND"}
+_NOT_TRIP |= {"DTT", "INTERTRIP", "TRANSFER", "CARRIER", "BLOCK", "BLK", "FAIL", "FAILED"}
+_NOT_TRIP |= {"ALARM", "SUPV", "SUPERVISION", "HEALTHY", "TCS", "CIRCUIT"}
 _THREE_POLE = {"3P", "3PH", "3POLE", "3PHASE", "3PT", "3PTRIP", "THREE", "ABC", "RST", "L123"}
 _RECLOSE = {"RECLOSE", "RECL", "RCL", "AUTORECLOSE", "RECLOSING", "RECLOSURE"}
 _CLOSE_CMD = {"CLOSE", "CLS_CMD", "CLOSECMD"}
@@ -291,6 +295,12 @@ def _classify_digital(tokens: list[str], field_phase: str | None, field_kind: st
     if is_reclose:
         return Candidate(
             None, reason="a reclose status word (block/ready/lockout…), not the command"
+        )
+    if tokset & _TRIP and tokset & _NOT_TRIP:
+        return Candidate(
+            None,
+            reason="a trip-related signal (breaker failure, teleprotection, "
+            "supervision), not the trip command",
         )
     if tokset & _TRIP:
         three = bool(tokset & _THREE_POLE) or bool(re.search(r"\b3 (POLE|PH|PHASE|P)\b", joined))
