@@ -310,3 +310,53 @@ def test_whole_process_no_heavy_imports_no_traceback(tmp_path: Path) -> None:
     assert proc.stdout == ""
     assert proc.stderr.count("\n") == 1 and "Traceback" not in proc.stderr
     assert "ashcombe" in proc.stderr
+
+
+def test_record_written_by_recordscan_io_write(tmp_path: Path, capsys) -> None:
+    """A record built in memory, written with recordscan.io.write, inspected back.
+
+    The expected values are the in-memory record's own; BINARY stores 16-bit integers, so
+    ranges agree within one quantisation step of each channel (C37.111 a·x + b scaling).
+    """
+    from recordscan.core.record import AnalogChannel, Record, StatusChannel
+    from recordscan.io import write
+
+    rate = 4800.0
+    t = np.concatenate([np.arange(480) / rate, 2.0 + np.arange(960) / rate])  # 1.9 s dead time
+    w = 2 * np.pi * 60.0 * t
+    v_pk = 500e3 * np.sqrt(2 / 3)
+    analog = [
+        AnalogChannel(f"V{p} line", v_pk * np.sin(w - k * 2.0944), unit="V", source_phase=p)
+        for k, p in enumerate("ABC")
+    ] + [AnalogChannel("IN", 40.0 * np.cos(w), unit="A", source_phase="N")]
+    digital = [
+        StatusChannel("POLE A CLOSED", t < 0.05, source_phase="A"),
+        StatusChannel("RECLOSE", t > 2.1),
+    ]
+    rec = Record(
+        t_s=t,
+        analog=analog,
+        digital=digital,
+        frequency_hz=60.0,
+        station="Dunhallow Süd",
+        device="DR-3",
+        start_ns=1_795_000_000_123_456_789,
+        trigger_ns=1_795_000_000_173_456_789,
+    )
+    files = write(rec, tmp_path / "dunhallow.cfg", data_format="BINARY", encoding="latin-1")
+    code, out, err = run(["inspect", str(files[0]), "--json", "--encoding", "latin-1"], capsys)
+    assert code == 0, err
+    s = json.loads(out)
+    assert s["station"] == "Dunhallow Süd" and s["encoding"] == "latin-1"
+    assert s["n_samples"] == t.shape[0]
+    assert s["start"] == iso_ns(rec.start_ns) and s["trigger_s"] == pytest.approx(0.05)
+    assert [g["n_samples"] for g in s["segments"]] == [480, 960]
+    assert s["roles"] == {
+        "v_a": "VA line", "v_b": "VB line", "v_c": "VC line", "i_n": "IN",
+        "pole_a": "POLE A CLOSED", "reclose": "RECLOSE",
+    }  # fmt: skip
+    for ch, src in zip(s["analog"], analog, strict=True):
+        step = np.ptp(src.values) / 2**15
+        assert ch["min"] == pytest.approx(src.values.min(), abs=step)
+        assert ch["max"] == pytest.approx(src.values.max(), abs=step)
+    assert [d["n_changes"] for d in s["digital"]] == [1, 1]
