@@ -451,3 +451,23 @@ def test_documented_example_profile_loads(tmp_path: Path) -> None:
     assert bw.line_file == tmp_path / "../lines/ashcombe-brightwater.toml"
     cr = prof.select("corrow-2")
     assert cr.match == ("CR2 *",) and [r.role for r in cr.digital] == ["reclose"]
+
+
+def test_inversion_is_never_applied_twice_and_is_undone_with_the_role() -> None:
+    raw = np.array([1, 1, 1, 0, 0, 0, 1, 1], bool)
+    rec = assign_roles(_rec(digital=(_d("BKR A OPEN", raw, idx=1), _d("CB A", raw, idx=2))))
+    np.testing.assert_array_equal(rec.digital[0].values, ~raw)  # auto: open sense inverted
+    # the profile says the same thing: the values must not flip back
+    same = assign_roles(
+        rec, profile=parse_profile({"digital": {"pole_a": {"name": "BKR A OPEN", "invert": True}}})
+    )
+    np.testing.assert_array_equal(same.digital[0].values, ~raw)
+    # the profile gives pole_a to another channel: the first one returns to its recorded sense
+    moved = assign_roles(
+        rec, profile=parse_profile({"digital": {"pole_a": {"name": "CB A", "invert": False}}})
+    )
+    assert moved.digital[0].role is None and moved.digital[1].role == "pole_a"
+    np.testing.assert_array_equal(moved.digital[0].values, raw)
+    np.testing.assert_array_equal(moved.digital[1].values, raw)
+    assert role_report(moved).inverted == ()
+    assert moved.processing[-1].startswith("restored digital channel 1 'BKR A OPEN'")

@@ -491,7 +491,17 @@ def _toml_str(text: str) -> str:
     return '"' + text.replace("\\", "\\\\").replace('"', '\\"') + '"'
 
 
-_INVERT_STEP = re.compile(r"^inverted digital channel (\d+) ")
+_INVERT_STEP = re.compile(r"^(inverted|restored) digital channel (\d+) ")
+
+
+def _inverted_now(record: Record) -> set[int]:
+    """1-based indices of digital channels whose values are inverted from the recording."""
+    now: set[int] = set()
+    for step in record.processing:
+        m = _INVERT_STEP.match(step)
+        if m is not None:
+            (now.add if m.group(1) == "inverted" else now.discard)(int(m.group(2)))
+    return now
 
 
 def _index(ch: Channel, pos: int) -> int:
@@ -538,7 +548,7 @@ def _matches(ch: Channel, patterns: tuple[str, ...]) -> bool:
 class _Plan:
     roles: dict[tuple[str, int], str]
     phases: dict[tuple[str, int], str]
-    invert: set[tuple[str, int]]
+    invert: dict[tuple[str, int], bool]
     ambiguous: dict[str, list[tuple[str, int]]]
     issues: dict[tuple[str, int], str]
 
@@ -547,7 +557,7 @@ def _plan(record: Record, bay: BayProfile | None, where: str) -> _Plan:
     chans: dict[str, tuple[Channel, ...]] = {"analog": record.analog, "digital": record.digital}
     roles: dict[tuple[str, int], str] = {}
     phases: dict[tuple[str, int], str] = {}
-    invert: set[tuple[str, int]] = set()
+    invert: dict[tuple[str, int], bool] = {}
     owner: dict[str, tuple[str, int]] = {}
     # 1. roles the record already carries
     for kind, chs in chans.items():
@@ -572,8 +582,8 @@ def _plan(record: Record, bay: BayProfile | None, where: str) -> _Plan:
                 ph = R.phase_of(ref.role)
                 if ph or ref.role in (R.I_RESIDUAL, R.V_RESIDUAL, R.I_NEUTRAL_REACTOR):
                     phases[key] = ph or "N"
-                if ref.invert:
-                    invert.add(key)
+                if kind == "digital":
+                    invert[key] = ref.invert
     fixed = set(roles)
     # 3. automatic rules for the rest
     candidates: dict[str, list[tuple[str, int]]] = {}
@@ -610,8 +620,8 @@ def _plan(record: Record, bay: BayProfile | None, where: str) -> _Plan:
                 )
             else:
                 candidates.setdefault(cand.role, []).append(key)
-                if cand.invert:
-                    invert.add(key)
+                if kind == "digital":
+                    invert[key] = cand.invert
                 if cand.phase:
                     phases[key] = cand.phase
     ambiguous: dict[str, list[tuple[str, int]]] = {}
@@ -620,7 +630,8 @@ def _plan(record: Record, bay: BayProfile | None, where: str) -> _Plan:
             roles[keys[0]] = role
         else:
             ambiguous[role] = keys
-            invert.difference_update(keys)
+            for key in keys:
+                invert.pop(key, None)
     return _Plan(roles, phases, invert, ambiguous, issues)
 
 
@@ -671,6 +682,7 @@ def assign_roles(
         where = f"{where}: profile {src}"
     sel = _selected_bay(profile, bay)
     plan = _plan(record, sel, where)
+    inverted_now = _inverted_now(record)
     steps: list[str] = []
 
     def update(kind: str, pos: int, ch: Channel) -> Channel:
@@ -682,12 +694,17 @@ def assign_roles(
             changes["role"] = role
         if phase != ch.phase:
             changes["phase"] = phase
-        if isinstance(ch, StatusChannel) and key in plan.invert and role is not None:
-            changes["values"] = np.logical_not(ch.values)
-            steps.append(
-                f"inverted digital channel {_index(ch, pos)} {ch.name!r} to the closed sense "
-                f"of {role}"
-            )
+        if isinstance(ch, StatusChannel):
+            idx = _index(ch, pos)
+            now = idx in inverted_now
+            want = False if role is None else plan.invert.get(key, now)
+            if want != now:
+                changes["values"] = np.logical_not(ch.values)
+                steps.append(
+                    f"inverted digital channel {idx} {ch.name!r} to the closed sense of {role}"
+                    if want
+                    else f"restored digital channel {idx} {ch.name!r} to its recorded sense"
+                )
         return dataclasses.replace(ch, **changes) if changes else ch
 
     analog = cast(
@@ -753,9 +770,7 @@ def role_report(
         for k, reason in sorted(plan.issues.items())
         if k[0] == kind and k not in in_amb and chans[kind][k[1]].role is None
     )
-    inverted_idx = {
-        int(m.group(1)) for s in record.processing if (m := _INVERT_STEP.match(s)) is not None
-    }
+    inverted_idx = _inverted_now(record)
     inverted = tuple(
         ch.name for p, ch in enumerate(record.digital) if _index(ch, p) in inverted_idx
     )
