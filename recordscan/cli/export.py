@@ -277,7 +277,12 @@ def export_record(
     required=True,
     help="Output kind.",
 )
-@click.option("--out", type=click.Path(dir_okay=False, path_type=Path), required=True)
+@click.option(
+    "--out",
+    type=click.Path(dir_okay=False, path_type=Path),
+    required=True,
+    help="Output file (for COMTRADE the .cfg or .cff name).",
+)
 @click.option("--start", "start_s", type=float, default=None, help="Window start, s.")
 @click.option("--end", "end_s", type=float, default=None, help="Window end (excluded), s.")
 @click.option(
@@ -294,7 +299,12 @@ def export_record(
 )
 @click.option("--cff", is_flag=True, help="Write one COMTRADE 2013 .cff file.")
 @click.option("--encoding", default=None, help="Text encoding of the source cfg.")
-@click.option("--profile", type=click.Path(dir_okay=False, path_type=Path), default=None)
+@click.option(
+    "--profile",
+    type=click.Path(dir_okay=False, path_type=Path),
+    default=None,
+    help="Recorder profile (TOML) for the roles in CSV/Parquet column names.",
+)
 @click.option("--bay", default=None, help="Line bay of the profile to use.")
 @click.option("--json", "as_json", is_flag=True, help="Print what was written as JSON.")
 def export(
