@@ -1,0 +1,832 @@
+"""Simulate a scenario: network event → instruments → recorder → :class:`Record` + truth.
+
+:func:`simulate` turns a :class:`~recordscan.synth.scenario.Scenario` into an
+:class:`EventSpec` for the time-domain solver (:mod:`recordscan.physics.network.event`),
+runs it, passes the line-side voltages and currents through the instrument transformers
+and the recorder model (:mod:`recordscan.physics.instruments`), and returns one record per
+recorded line end with channel roles assigned, plus the truth of the event in record time
+(seconds from each record's first sample). :func:`write_event` writes the records as
+COMTRADE and the truth as JSON.
+"""
+
+from __future__ import annotations
+
+import cmath
+import dataclasses
+import json
+import math
+import os
+import tempfile
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from recordscan.core import roles as R
+from recordscan.core.record import AnalogChannel, Provenance, Record, Scaling, StatusChannel
+from recordscan.errors import ModelError
+from recordscan.physics import instruments as ins
+from recordscan.synth.scenario import (
+    Scenario,
+    default_dead_time_s,
+    load_scenario,
+    scenario_to_dict,
+)
+
+__all__ = [
+    "SimulatedEvent",
+    "build_event_spec",
+    "resolve_line",
+    "simulate",
+    "write_event",
+]
+
+TRUTH_SCHEMA = 1
+ENDS = ("local", "remote")
+PHASES = ("A", "B", "C")
+_PHASE_SHIFT_DEG = {"A": 0.0, "B": -120.0, "C": 120.0}
+#: fictional epoch of the demo records: 2026-03-14 09:26:53 UTC
+_EPOCH_NS = 1_773_480_413 * 1_000_000_000
+
+
+@dataclass(frozen=True)
+class Timing:
+    """Simulator-time instants derived from a scenario (seconds)."""
+
+    record_start_s: float
+    inception_s: float | None
+    trip_command_s: Mapping[str, float | None]
+    contact_separation_s: Mapping[str, Mapping[str, float]]
+    close_s: Mapping[str, Mapping[str, float]]
+    reclose_command_s: Mapping[str, float | None]
+    dead_time_s: float
+    t_end_s: float
+
+
+@dataclass(frozen=True)
+class SimulatedEvent:
+    """The result of :func:`simulate`.
+
+    Attributes
+    ----------
+    scenario : Scenario
+        What was simulated.
+    records : Mapping[str, Record]
+        ``"local"`` and/or ``"remote"`` → the recorder's record (roles assigned).
+    truth : dict
+        The truth of the event in record time (see ``docs/scenario.md``).
+    raw : object or None
+        The solver's result (``EventResult``) when asked for with ``keep_raw``.
+    """
+
+    scenario: Scenario
+    records: Mapping[str, Record]
+    truth: dict[str, Any]
+    raw: Any = field(default=None, repr=False, compare=False)
+
+
+# ----------------------------------------------------------------------------- line
+def resolve_line(scenario: Scenario) -> Any:
+    """The :class:`~recordscan.physics.line.LineDescription` of a scenario."""
+    from recordscan.physics.line import LineDescription, load_line
+    from recordscan.physics.line_constants import LineConstants
+
+    if scenario.line.file is not None:
+        return load_line(scenario.line.file)
+    il = scenario.line.inline
+    assert il is not None
+    consts = LineConstants.from_sequence(
+        il.r1_ohm_per_m,
+        il.x1_ohm_per_m,
+        il.c1_f_per_m,
+        il.r0_ohm_per_m,
+        il.x0_ohm_per_m,
+        il.c0_f_per_m,
+        il.frequency_hz,
+    )
+    return LineDescription(
+        name=il.name,
+        from_station=il.local_station,
+        to_station=il.remote_station,
+        voltage_v=il.voltage_v,
+        frequency_hz=il.frequency_hz,
+        length_m=il.length_m,
+        transposed=True,
+        constants=consts,
+        dead_time_s=il.dead_time_s,
+        source=scenario.source_path or "inline",
+    )
+
+
+def _reactor_spec(setting: Any, from_line: Any, voltage_v: float) -> Any:
+    from recordscan.physics.network.event import ReactorSpec
+
+    if setting.mode == "none":
+        return None
+    if setting.mode == "line":
+        if from_line is None:
+            return None
+        q = from_line.quality_factor
+        return ReactorSpec(
+            x_phase_ohm=from_line.x_phase_ohm,
+            x_neutral_ohm=from_line.x_neutral_ohm,
+            q_factor=q if math.isfinite(q) else 300.0,
+        )
+    x_p = setting.x_phase_ohm
+    if x_p is None:
+        x_p = voltage_v**2 / (setting.mvar * 1e6)
+    return ReactorSpec(
+        x_phase_ohm=x_p, x_neutral_ohm=setting.x_neutral_ohm, q_factor=setting.q_factor
+    )
+
+
+def _source_spec(setting: Any, voltage_v: float, angle_deg: float) -> Any:
+    from recordscan.physics.network.event import SourceSpec
+
+    z_mag = voltage_v**2 / (setting.short_circuit_mva * 1e6)
+    r = z_mag / math.sqrt(1.0 + setting.x_over_r**2)
+    z1 = complex(r, r * setting.x_over_r)
+    return SourceSpec(
+        v_ll_rms_v=setting.v_pu * voltage_v,
+        angle_deg=angle_deg,
+        z1_ohm=z1,
+        z0_ohm=z1 * setting.z0_over_z1,
+    )
+
+
+def _load_angle_deg(scenario: Scenario, line: Any) -> float:
+    if scenario.load.current_a is None:
+        return float(scenario.load.angle_deg or 0.0)
+    v = line.voltage_v
+    zs = []
+    for s in (scenario.local, scenario.remote):
+        zs.append(v**2 / (s.short_circuit_mva * 1e6))
+    c = line.constants
+    z_line = abs(complex(c.r1_ohm_per_m, c.x1_ohm_per_m)) * line.length_m
+    z_total = zs[0] + z_line + zs[1]
+    # |V_s − V_r| = 2·V·sin(δ/2) drives I through the series impedance (charging neglected)
+    x = scenario.load.current_a * z_total / (2.0 * v / math.sqrt(3.0))
+    if x >= 1.0:
+        raise ModelError(
+            f"load current {scenario.load.current_a:g} A exceeds what the sources and line "
+            "can carry; give a smaller load_current_a"
+        )
+    return math.degrees(2.0 * math.asin(x))
+
+
+# ----------------------------------------------------------------------------- timing
+def _timing(scenario: Scenario, line: Any, angle_deg: float, rng: np.random.Generator) -> Timing:
+    f = line.frequency_hz
+    period = 1.0 / f
+    inst = scenario.instruments
+    br = scenario.breaker
+    fault = scenario.fault
+    base = scenario.simulation.settle_s + inst.pre_fault_s
+    dead = (
+        br.dead_time_s
+        if br.dead_time_s is not None
+        else default_dead_time_s(line.voltage_v, line.dead_time_s)
+    )
+    empty: dict[str, dict[str, float]] = {"local": {}, "remote": {}}
+    if fault.kind == "none":
+        t0 = base - inst.pre_fault_s
+        return Timing(
+            record_start_s=t0,
+            inception_s=None,
+            trip_command_s={"local": None, "remote": None},
+            contact_separation_s=empty,
+            close_s={"local": {}, "remote": {}},
+            reclose_command_s={"local": None, "remote": None},
+            dead_time_s=dead,
+            t_end_s=t0 + inst.record_length_s,
+        )
+    # inception where the first faulted phase's source voltage has the asked angle
+    ph0 = fault.phases[0]
+    theta_deg = fault.point_on_wave_deg - angle_deg - _PHASE_SHIFT_DEG[ph0]
+    frac = (theta_deg / 360.0) % 1.0
+    k = math.ceil(base / period - frac - 1e-12)
+    t_inc = (k + frac) * period
+    t0 = t_inc - inst.pre_fault_s
+    single = fault.kind == "single_phase"
+    tripped = fault.phases if single else PHASES
+    trip_cmd = {
+        "local": t_inc + br.relay_time_s,
+        "remote": t_inc + br.relay_time_s + br.remote_delay_s,
+    }
+    sep: dict[str, dict[str, float]] = {}
+    close: dict[str, dict[str, float]] = {}
+    rc_cmd: dict[str, float | None] = {}
+    for end in ENDS:
+        sep[end] = {
+            ph: trip_cmd[end] + br.opening_time_s + br.pole_scatter_s * (rng.random() - 0.5)
+            for ph in tripped
+        }
+        if single and br.reclose:
+            extra = br.remote_reclose_delay_s if end == "remote" else 0.0
+            close[end] = {ph: sep[end][ph] + dead + extra for ph in tripped}
+            rc_cmd[end] = min(close[end].values()) - br.closing_time_s
+        else:
+            close[end] = {}
+            rc_cmd[end] = None
+    return Timing(
+        record_start_s=t0,
+        inception_s=t_inc,
+        trip_command_s=trip_cmd,
+        contact_separation_s=sep,
+        close_s=close,
+        reclose_command_s=rc_cmd,
+        dead_time_s=dead,
+        t_end_s=t0 + inst.record_length_s,
+    )
+
+
+def _arc_objects(scenario: Scenario) -> tuple[Any, Any, Any]:
+    from recordscan.physics import arc as A
+
+    a = scenario.arc
+    kw = {
+        f.name: getattr(a, f.name)
+        for f in dataclasses.fields(A.ArcParameters)
+        if getattr(a, f.name, None) is not None
+    }
+    params = A.ArcParameters(**kw)
+    if a.elongation == "johns":
+        law: Any = A.JohnsElongation()
+    elif a.elongation == "linear":
+        law = A.LinearElongation(v_m_per_s=a.elongation_speed_m_per_s)
+    else:
+        law = A.ConstantLength()
+    recovery = A.DielectricRecovery(rate_scale=a.recovery_rate_scale)
+    return params, law, recovery
+
+
+def build_event_spec(
+    scenario: Scenario, *, line: Any = None, rng: np.random.Generator | None = None
+) -> tuple[Any, Timing, Any]:
+    """The solver input for a scenario.
+
+    Returns
+    -------
+    (EventSpec, Timing, LineDescription)
+        The solver's event description, the derived instants in simulator time, and the
+        line.
+    """
+    from recordscan.physics import arc as A
+    from recordscan.physics.network import event as ev
+
+    line = line if line is not None else resolve_line(scenario)
+    rng = rng if rng is not None else np.random.default_rng(scenario.seed)
+    angle = _load_angle_deg(scenario, line)
+    timing = _timing(scenario, line, angle, rng)
+    c = line.constants
+    line_data = ev.LineModelData(
+        r_ohm_per_m=np.asarray(c.r_ohm_per_m, dtype=float),
+        l_h_per_m=np.asarray(c.l_h_per_m, dtype=float),
+        c_f_per_m=np.asarray(c.c_f_per_m, dtype=float),
+        length_m=float(line.length_m),
+    )
+    r_from, r_to = line.reactors
+    fault_spec = None
+    if scenario.fault.kind != "none":
+        params, law, recovery = _arc_objects(scenario)
+        fs_fields = {f.name for f in dataclasses.fields(ev.FaultSpec)}
+        kw: dict[str, Any] = {
+            "phase": scenario.fault.phases[0],
+            "location_m": scenario.fault.location_pct / 100.0 * line.length_m,
+            "inception_s": timing.inception_s,
+            "r_fault_ohm": scenario.fault.resistance_ohm,
+            "primary": A.PRIMARY_ARC,
+            "secondary": params,
+            "elongation": law,
+            "permanent": scenario.fault.permanent,
+            "restrike_enabled": scenario.arc.restrike,
+        }
+        if len(scenario.fault.phases) > 1:
+            if "phases" not in fs_fields:
+                raise ModelError("this simulator cannot model multi-phase faults")
+            kw["phases"] = tuple(scenario.fault.phases)
+        for name in ("recovery", "dielectric", "dielectric_recovery"):
+            if name in fs_fields:
+                kw[name] = recovery
+                break
+        fault_spec = ev.FaultSpec(**kw)
+    bk_fields = {f.name for f in dataclasses.fields(ev.BreakerSpec)}
+    breakers = []
+    for end in ENDS:
+        bkw: dict[str, Any] = {
+            "trip_s": dict(timing.contact_separation_s[end]),
+            "close_s": dict(timing.close_s[end]),
+        }
+        if "three_pole_trip_delay_s" in bk_fields:
+            bkw["three_pole_trip_delay_s"] = scenario.breaker.three_pole_trip_delay_s
+        breakers.append(ev.BreakerSpec(**bkw))
+    sim = scenario.simulation
+    dt = sim.dt_s
+    spec = ev.EventSpec(
+        line=line_data,
+        frequency_hz=float(line.frequency_hz),
+        local=_source_spec(scenario.local, line.voltage_v, angle),
+        remote=_source_spec(scenario.remote, line.voltage_v, 0.0),
+        reactor_local=_reactor_spec(scenario.reactor_local, r_from, line.voltage_v),
+        reactor_remote=_reactor_spec(scenario.reactor_remote, r_to, line.voltage_v),
+        breaker_local=breakers[0],
+        breaker_remote=breakers[1],
+        fault=fault_spec,
+        t_end_s=timing.t_end_s + 4 * dt + 2e-3,
+        dt_s=dt,
+        line_model=sim.line_model,
+        n_sections=sim.n_sections,
+    )
+    return spec, timing, line
+
+
+# ----------------------------------------------------------------------------- recorder
+def _analog(
+    name: str,
+    values: np.ndarray,
+    *,
+    unit: str,
+    phase: str | None,
+    role: str,
+    circuit: str,
+    primary: float,
+    secondary: float,
+    secondary_values: bool,
+) -> AnalogChannel:
+    return AnalogChannel(
+        name=name,
+        values=values,
+        unit=unit,
+        phase=phase,
+        role=role,
+        circuit=circuit,
+        source_phase=phase or "",
+        source_unit=unit,
+        scaling=Scaling(primary=primary, secondary=secondary, ps="S" if secondary_values else "P"),
+    )
+
+
+def _record_end(
+    scenario: Scenario,
+    line: Any,
+    result: Any,
+    timing: Timing,
+    end: str,
+    rng: np.random.Generator,
+) -> Record:
+    inst = scenario.instruments
+    f = float(line.frequency_hz)
+    t_sim = np.asarray(result.t_s, dtype=float)
+    dt = float(t_sim[1] - t_sim[0])
+    e = ENDS.index(end)
+    v_ph = line.v_phase_v
+    vt_p = inst.vt_primary_v or v_ph
+    vt_s = inst.vt_secondary_v or 115.0 / math.sqrt(3.0)
+    secondary_values = scenario.output.values == "secondary"
+    t_rec = ins.record_instants(
+        start_s=timing.record_start_s, length_s=inst.record_length_s, rate_hz=inst.rate_hz
+    )
+    circuit = line.name
+    cvt = ins.CvtParameters.typical(v_phase_v=v_ph, frequency_hz=f) if inst.vt == "cvt" else None
+    ct = ins.CtParameters(saturation=inst.ct_saturation)
+
+    def chain(x: np.ndarray, ref_rms: float) -> np.ndarray:
+        y = ins.anti_alias(x, dt_s=dt, rate_hz=inst.rate_hz, frequency_hz=f)
+        y = ins.sample_at(t_sim, y, t_rec)
+        if inst.snr_db is not None:
+            y = ins.add_noise(y, snr_db=inst.snr_db, reference_rms=ref_rms, rng=rng)
+        return ins.quantise(y, n_bits=16)[0]
+
+    analog: list[AnalogChannel] = []
+    for k, ph in enumerate(PHASES):
+        v = ins.vt_response(
+            np.asarray(result.v_line_v[e, k], dtype=float),
+            kind=inst.vt,
+            dt_s=dt,
+            frequency_hz=f,
+            cvt=cvt,
+        )
+        analog.append(
+            _analog(
+                f"V{ph} line",
+                chain(v, v_ph),
+                unit="V",
+                phase=ph,
+                role=R.V_LINE[ph],
+                circuit=circuit,
+                primary=vt_p,
+                secondary=vt_s,
+                secondary_values=secondary_values,
+            )
+        )
+    if inst.bus_vt:
+        for k, ph in enumerate(PHASES):
+            analog.append(
+                _analog(
+                    f"V{ph} bus",
+                    chain(np.asarray(result.v_bus_v[e, k], dtype=float), v_ph),
+                    unit="V",
+                    phase=ph,
+                    role=R.V_BUS[ph],
+                    circuit=circuit,
+                    primary=vt_p,
+                    secondary=vt_s,
+                    secondary_values=secondary_values,
+                )
+            )
+    i_sum = np.zeros_like(t_sim)
+    for k, ph in enumerate(PHASES):
+        i = ins.ct_response(
+            np.asarray(result.i_line_a[e, k], dtype=float), dt_s=dt, frequency_hz=f, params=ct
+        )
+        i_sum = i_sum + i
+        analog.append(
+            _analog(
+                f"I{ph}",
+                chain(i, inst.ct_primary_a),
+                unit="A",
+                phase=ph,
+                role=R.I_LINE[ph],
+                circuit=circuit,
+                primary=inst.ct_primary_a,
+                secondary=inst.ct_secondary_a,
+                secondary_values=secondary_values,
+            )
+        )
+    analog.append(
+        _analog(
+            "IN",
+            chain(i_sum, inst.ct_primary_a),
+            unit="A",
+            phase="N",
+            role=R.I_RESIDUAL,
+            circuit=circuit,
+            primary=inst.ct_primary_a,
+            secondary=inst.ct_secondary_a,
+            secondary_values=secondary_values,
+        )
+    )
+    reactor = (scenario.reactor_local, scenario.reactor_remote)[e]
+    has_reactor = (result.i_reactor_neutral_a is not None) and reactor.mode != "none"
+    if has_reactor and np.any(np.asarray(result.i_reactor_neutral_a[e]) != 0):
+        i_nr = ins.ct_response(
+            np.asarray(result.i_reactor_neutral_a[e], dtype=float),
+            dt_s=dt,
+            frequency_hz=f,
+            params=ct,
+        )
+        analog.append(
+            _analog(
+                "I reactor neutral",
+                chain(i_nr, 100.0),
+                unit="A",
+                phase="N",
+                role=R.I_NEUTRAL_REACTOR,
+                circuit=circuit,
+                primary=200.0,
+                secondary=1.0,
+                secondary_values=secondary_values,
+            )
+        )
+    if inst.arc_channels and end == "local" and scenario.fault.kind != "none":
+        arc_i = np.nan_to_num(np.asarray(result.arc_i_a, dtype=float))
+        arc_v = np.nan_to_num(np.asarray(result.arc_v_v, dtype=float))
+        analog.append(
+            _analog(
+                "ARC I",
+                chain(arc_i, 50.0),
+                unit="A",
+                phase=None,
+                role=R.ARC_CURRENT,
+                circuit="fault point",
+                primary=1.0,
+                secondary=1.0,
+                secondary_values=False,
+            )
+        )
+        analog.append(
+            _analog(
+                "ARC V",
+                chain(arc_v, 10e3),
+                unit="V",
+                phase=None,
+                role=R.ARC_VOLTAGE,
+                circuit="fault point",
+                primary=1.0,
+                secondary=1.0,
+                secondary_values=False,
+            )
+        )
+
+    br = scenario.breaker
+    digital: list[StatusChannel] = []
+    trip_issue = timing.trip_command_s[end]
+    truth_3p = getattr(result.truth, "three_pole_trip_s", None)
+    trip3_issue = None if truth_3p is None else truth_3p - br.opening_time_s
+    tripped = set(timing.contact_separation_s[end])
+    for ph in PHASES:
+        trip = ins.trip_command(
+            t_rec, issue_s=trip_issue if ph in tripped else None, hold_s=br.trip_hold_s
+        )
+        trip |= ins.trip_command(t_rec, issue_s=trip3_issue, hold_s=br.trip_hold_s)
+        digital.append(
+            StatusChannel(
+                f"TRIP {ph}", trip, phase=ph, role=R.TRIP[ph], circuit=circuit, source_phase=ph
+            )
+        )
+    for k, ph in enumerate(PHASES):
+        pole = ins.status_through_contacts(
+            t_sim,
+            np.asarray(result.pole_closed[e, k], dtype=bool),
+            t_rec,
+            open_delay_s=br.aux_open_delay_s,
+            close_delay_s=br.aux_close_delay_s,
+        )
+        digital.append(
+            StatusChannel(
+                f"POLE {ph} CLOSED",
+                pole,
+                phase=ph,
+                role=R.POLE_CLOSED[ph],
+                circuit=circuit,
+                normal_state=1,
+                source_phase=ph,
+            )
+        )
+    digital.append(
+        StatusChannel(
+            "RECLOSE",
+            ins.reclose_command(t_rec, issue_s=timing.reclose_command_s[end]),
+            role=R.RECLOSE,
+            circuit=circuit,
+        )
+    )
+    if scenario.fault.kind not in ("single_phase", "none") or trip3_issue is not None:
+        issue = trip3_issue if scenario.fault.kind in ("single_phase",) else trip_issue
+        digital.append(
+            StatusChannel(
+                "TRIP 3P",
+                ins.trip_command(t_rec, issue_s=issue, hold_s=br.trip_hold_s),
+                role=R.TRIP_3P,
+                circuit=circuit,
+            )
+        )
+
+    station = line.stations[e]
+    offset_ns = round((scenario.seed % 86_400) * 1e9) + round(timing.record_start_s * 1e9)
+    start_ns = _EPOCH_NS + offset_ns
+    trigger_rel = (
+        timing.inception_s
+        if timing.inception_s is not None
+        else timing.record_start_s + inst.pre_fault_s
+    ) - timing.record_start_s
+    return Record(
+        t_s=t_rec - timing.record_start_s,
+        analog=tuple(analog),
+        digital=tuple(digital),
+        frequency_hz=f,
+        station=station,
+        device=f"{station} line recorder",
+        start_ns=start_ns,
+        trigger_ns=start_ns + round(trigger_rel * 1e9),
+        sample_rates=((float(inst.rate_hz), int(t_rec.shape[0])),),
+        header_text=(
+            f"Simulated record (recordscan), scenario {scenario.name!r}, end {end} "
+            f"({station}). Fictional data for demonstration and testing."
+        ),
+        provenance=Provenance(notes=("simulated",)),
+        processing=("simulated by recordscan.synth",),
+    )
+
+
+# ----------------------------------------------------------------------------- truth
+def _rel(t: float | None, t0: float) -> float | None:
+    return None if t is None else float(t) - t0
+
+
+def _truth(
+    scenario: Scenario, line: Any, result: Any, timing: Timing, params: Any
+) -> dict[str, Any]:
+    tr = result.truth
+    t0 = timing.record_start_s
+    kind = scenario.fault.kind
+    pole_open: dict[str, dict[str, float]] = {"local": {}, "remote": {}}
+    for key, t in dict(getattr(tr, "pole_open_s", {}) or {}).items():
+        end, ph = key
+        end_name = ENDS[end] if isinstance(end, int) else str(end)
+        if t is not None:
+            pole_open[end_name][str(ph)] = float(t) - t0
+    reclose: dict[str, float | None] = {}
+    for end, t in dict(getattr(tr, "reclose_s", {}) or {}).items():
+        end_name = ENDS[end] if isinstance(end, int) else str(end)
+        reclose[end_name] = _rel(t, t0)
+    reclose_first = min((t for t in reclose.values() if t is not None), default=None)
+    extinction = _rel(getattr(tr, "extinction_s", None), t0)
+    if kind == "none":
+        event = "no_fault"
+    elif kind == "single_phase":
+        event = "single_pole_trip"
+    else:
+        event = "three_pole_trip"
+    outcome = getattr(tr, "outcome", "no_reclose") if kind == "single_phase" else "no_reclose"
+    margin = (
+        reclose_first - extinction
+        if (reclose_first is not None and extinction is not None)
+        else None
+    )
+    return {
+        "schema": TRUTH_SCHEMA,
+        "scenario": scenario.name,
+        "event": event,
+        "fault_kind": kind,
+        "faulted_phase": scenario.fault.phases[0] if scenario.fault.phases else None,
+        "faulted_phases": list(scenario.fault.phases),
+        "permanent": bool(scenario.fault.permanent) if kind != "none" else False,
+        "fault_location_m": (
+            scenario.fault.location_pct / 100.0 * line.length_m if kind != "none" else None
+        ),
+        "fault_inception_s": _rel(timing.inception_s, t0),
+        "trip_command_s": {e: _rel(timing.trip_command_s[e], t0) for e in ENDS},
+        "pole_open_s": pole_open,
+        "secondary_arc_start_s": _rel(getattr(tr, "secondary_arc_start_s", None), t0),
+        "restrike_s": [float(t) - t0 for t in (getattr(tr, "restrike_s", ()) or ())],
+        "extinctions_s": [float(t) - t0 for t in (getattr(tr, "extinctions_s", ()) or ())],
+        "extinction_s": extinction,
+        "secondary_arc_current_rms_a": getattr(tr, "secondary_arc_current_rms_a", None),
+        "recovery_voltage_rms_v": getattr(tr, "recovery_voltage_rms_v", None),
+        "primary_fault_current_rms_a": getattr(tr, "primary_fault_current_rms_a", None),
+        "reclose_command_s": {e: _rel(timing.reclose_command_s[e], t0) for e in ENDS},
+        "reclose_s": reclose,
+        "outcome": outcome,
+        "three_pole_trip_s": _rel(getattr(tr, "three_pole_trip_s", None), t0),
+        "dead_time_setting_s": timing.dead_time_s,
+        "extinction_margin_s": margin,
+        "arc_parameters": dataclasses.asdict(params) if params is not None else None,
+        "elongation": scenario.arc.elongation,
+        "line": {
+            "name": line.name,
+            "voltage_v": line.voltage_v,
+            "frequency_hz": line.frequency_hz,
+            "length_m": line.length_m,
+            "compensation": line.compensation,
+            "stations": list(line.stations),
+        },
+        "recorder": {
+            "rate_hz": scenario.instruments.rate_hz,
+            "vt": scenario.instruments.vt,
+            "snr_db": scenario.instruments.snr_db,
+            "record_length_s": scenario.instruments.record_length_s,
+            "pre_fault_s": scenario.instruments.pre_fault_s,
+        },
+        "time_reference": "seconds from the first sample of each record (all ends share it)",
+    }
+
+
+def _check_truth(truth: Mapping[str, Any], where: str) -> None:
+    """Internal consistency of the truth (order of instants); a violation is a defect."""
+    inc = truth["fault_inception_s"]
+    sa = truth["secondary_arc_start_s"]
+    ext = truth["extinction_s"]
+    problems = []
+    for end, poles in truth["pole_open_s"].items():
+        for ph, t in poles.items():
+            if inc is not None and t < inc:
+                problems.append(f"pole {end} {ph} opens before inception")
+    if sa is not None and ext is not None and ext < sa:
+        problems.append("extinction before the secondary arc starts")
+    for t in truth["restrike_s"]:
+        if sa is not None and t < sa:
+            problems.append("restrike before the secondary arc starts")
+    if problems:
+        raise ModelError(f"{where}: inconsistent simulated truth: {'; '.join(problems)}")
+
+
+# ----------------------------------------------------------------------------- public
+def simulate(scenario: Scenario | str | Path, *, keep_raw: bool = False) -> SimulatedEvent:
+    """Simulate one scenario end to end.
+
+    Parameters
+    ----------
+    scenario : Scenario or path
+        A parsed scenario or a scenario TOML file.
+    keep_raw : bool
+        Keep the solver's full result in :attr:`SimulatedEvent.raw`.
+
+    Returns
+    -------
+    SimulatedEvent
+        Records per recorded end and the truth.
+
+    Raises
+    ------
+    recordscan.errors.FormatError
+        The scenario or its line file is invalid.
+    recordscan.errors.ModelError
+        The scenario cannot be simulated (e.g. impossible load).
+    """
+    from recordscan.physics.network.event import simulate_event
+
+    if not isinstance(scenario, Scenario):
+        scenario = load_scenario(scenario)
+    rng = np.random.default_rng(scenario.seed)
+    spec, timing, line = build_event_spec(scenario, rng=rng)
+    result = simulate_event(spec)
+    params = spec.fault.secondary if spec.fault is not None else None
+    truth = _truth(scenario, line, result, timing, params)
+    truth["scenario_echo"] = scenario_to_dict(scenario)
+    _check_truth(truth, scenario.source_path or scenario.name)
+    records = {
+        end: _record_end(scenario, line, result, timing, end, rng) for end in scenario.output.ends
+    }
+    return SimulatedEvent(
+        scenario=scenario, records=records, truth=truth, raw=result if keep_raw else None
+    )
+
+
+def _stem(event: SimulatedEvent, end: str) -> str:
+    base = event.scenario.output.stem or event.scenario.name
+    if len(event.records) == 1:
+        return base
+    return f"{base}_{end}"
+
+
+def write_event(
+    event: SimulatedEvent,
+    out_dir: str | Path,
+    *,
+    revision: str | None = None,
+    data_format: str | None = None,
+    cff: bool | None = None,
+) -> list[Path]:
+    """Write an event's records as COMTRADE and its truth as ``<stem>.truth.json``.
+
+    Parameters
+    ----------
+    event : SimulatedEvent
+        From :func:`simulate`.
+    out_dir : path
+        Output folder (created).
+    revision, data_format, cff : optional
+        Override the scenario's ``[output]`` settings.
+
+    Returns
+    -------
+    list of pathlib.Path
+        The files written (COMTRADE files of each end, then the truth JSON).
+    """
+    from recordscan.io import write
+
+    out = Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    o = event.scenario.output
+    rev = revision or o.revision
+    fmt = (data_format or o.data_format).upper()
+    use_cff = o.cff if cff is None else cff
+    written: list[Path] = []
+    files: dict[str, list[str]] = {}
+    for end, rec in event.records.items():
+        stem = _stem(event, end)
+        paths = write(rec, out / f"{stem}.cfg", revision=rev, data_format=fmt, cff=use_cff)
+        paths = [Path(p) for p in paths]
+        written.extend(paths)
+        files[end] = [p.name for p in paths]
+    truth = dict(event.truth)
+    truth["files"] = files
+    truth["comtrade"] = {"revision": rev, "data_format": fmt, "cff": bool(use_cff)}
+    base = event.scenario.output.stem or event.scenario.name
+    tpath = out / f"{base}.truth.json"
+    _atomic_text(tpath, json.dumps(_json_clean(truth), indent=1, allow_nan=False) + "\n")
+    written.append(tpath)
+    return written
+
+
+def _json_clean(obj: Any) -> Any:
+    if isinstance(obj, float):
+        return obj if math.isfinite(obj) else None
+    if isinstance(obj, complex):
+        return {
+            "re": obj.real,
+            "im": obj.imag,
+            "abs": abs(obj),
+            "deg": math.degrees(cmath.phase(obj)),
+        }
+    if isinstance(obj, Mapping):
+        return {str(k): _json_clean(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_json_clean(v) for v in obj]
+    if isinstance(obj, np.generic):
+        return _json_clean(obj.item())
+    return obj
+
+
+def _atomic_text(path: Path, text: str) -> None:
+    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            fh.write(text)
+        os.replace(tmp, path)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
