@@ -314,3 +314,64 @@ def test_bad_arguments() -> None:
         open_phase_coupling(line, fault_at_m=LENGTH_M + 1.0)
     with pytest.raises(ModelError):
         open_phase_coupling(line, load_current_a=math.nan)
+
+
+def _exact_distributed(
+    line: LineDescription, *, k: int, fault_at_m: float, with_fault: bool
+) -> complex:
+    """Independent reference: the telegrapher equations d[V; I]/dx = −[[0, Z], [Y, 0]][V; I]
+    solved exactly by matrix exponentials (scipy.linalg.expm), with the reactor banks as end
+    conditions on the open phase. Returns the arc current (with_fault) or the open-phase
+    voltage at the fault point (no fault). No load."""
+    from scipy.linalg import expm
+
+    z = np.asarray(line.constants.z_ohm_per_m)
+    y = 1j * 2 * math.pi * line.frequency_hz * np.asarray(line.constants.c_f_per_m)
+    m = np.zeros((6, 6), dtype=complex)
+    m[:3, 3:] = -z
+    m[3:, :3] = -y
+    t1 = expm(m * fault_at_m)
+    t2 = expm(m * (line.length_m - fault_at_m))
+    zero = np.zeros((3, 3))
+    y_a = zero if line.reactor_from is None else line.reactor_from.admittance_matrix_siemens()
+    y_b = zero if line.reactor_to is None else line.reactor_to.admittance_matrix_siemens()
+    v_src = line.v_phase_v * np.exp(-2j * np.pi / 3 * np.arange(3))
+    healthy = [j for j in range(3) if j != k]
+    e = np.eye(3)
+
+    # unknowns u = [V0_k, I0_h1, I0_h2, If]; state at x = 0 is affine in u
+    def s0(u: np.ndarray) -> np.ndarray:
+        v0 = np.array(v_src, dtype=complex)
+        v0[k] = u[0]
+        i0 = -(y_a @ v0)  # the open phase: line current = −reactor current
+        i0[healthy] = u[1:3]
+        return np.concatenate([v0, i0])
+
+    def residual(u: np.ndarray) -> np.ndarray:
+        sx = t1 @ s0(u)
+        jump = np.concatenate([np.zeros(3), e[k] * u[3]])
+        sl = t2 @ (sx - jump)
+        v_l, i_l = sl[:3], sl[3:]
+        r_end = i_l - y_b @ v_l  # open phase at the far end: arriving current feeds the bank
+        cond_fault = sx[k] if with_fault else u[3]
+        return np.array([cond_fault, *(v_l[healthy] - v_src[healthy]), r_end[k]])
+
+    base = residual(np.zeros(4, dtype=complex))
+    jac = np.column_stack([residual(np.eye(4)[c].astype(complex)) - base for c in range(4)])
+    u = np.linalg.solve(jac, -base)
+    if with_fault:
+        return complex(u[3])
+    return complex((t1 @ s0(u))[k])
+
+
+@pytest.mark.parametrize("name", ["corrow-dunhallow.toml", "brightwater-corrow.toml"])
+def test_pi_cascade_matches_exact_distributed_line(name: str) -> None:
+    """The pi-section cascade against the exact distributed-line solution (scipy expm)."""
+    line = load_line(LINES / name)
+    for k, ph in enumerate("ABC"):
+        x = 0.3 * line.length_m
+        res = open_phase_coupling(line, faulted_phase=ph, fault_at_m=x, max_section_m=2e3)
+        i_exact = abs(_exact_distributed(line, k=k, fault_at_m=x, with_fault=True))
+        v_exact = abs(_exact_distributed(line, k=k, fault_at_m=x, with_fault=False))
+        assert res.secondary_arc_current_rms_a == pytest.approx(i_exact, rel=1e-4)
+        assert res.recovery_voltage_rms_v == pytest.approx(v_exact, rel=1e-4)
