@@ -334,7 +334,7 @@ def run_kernel(
             acc = 0.0
             for p in range(n_ports):
                 acc += brk_k[pole, p] * i_port[p]
-            ibrk[pole] = acc
+            ibrk[pole] = acc if pole_closed[pole] == 1 else 0.0
         # outputs
         for j in range(6):
             out_vline[j, n] = v[rec_line[j]]
