@@ -558,6 +558,7 @@ def simulate_event(spec: EventSpec) -> EventResult:
     close_t = np.concatenate([_pole_times(spec.breaker_local, "close"),
                               _pole_times(spec.breaker_remote, "close")])  # fmt: skip
     pole_closed = (trip_t >= 0.0).astype(np.int64)
+    trip_t[pole_closed == 0] = np.inf  # open from the start: that trip is spent
     close_t[(pole_closed == 1) & (close_t <= np.where(trip_t < np.inf, trip_t, -np.inf))] = np.inf
     arc_conf, arc_par, fault_phases = _arc_arrays(spec, layout)
     n_arc = arc_conf.shape[0]
