@@ -67,12 +67,18 @@ def resolve(path: str | os.PathLike[str]) -> tuple[str, Path, Path | None]:
     ext = p.suffix.lower()
     if ext == ".cff":
         if not p.is_file():
-            raise MissingFileError(f"{p}: no such file")
+            other = _sibling(p.with_suffix(""), ".cff", prefer_upper=p.suffix.isupper())
+            if other is None:
+                raise MissingFileError(f"{p}: no such file")
+            p = other
         return "cff", p, None
     stem = p.with_suffix("") if ext in _EXTS else p
     upper = p.suffix.isupper() if ext in _EXTS else False
     if ext in _EXTS and not p.is_file():
-        raise MissingFileError(f"{p}: no such file")
+        other = _sibling(stem, ext, prefer_upper=upper)  # same name, other letter case
+        if other is None:
+            raise MissingFileError(f"{p}: no such file")
+        p, upper = other, other.suffix.isupper()
     cfg = p if ext == ".cfg" else _sibling(stem, ".cfg", prefer_upper=upper)
     if cfg is None:
         cff = _sibling(stem, ".cff", prefer_upper=upper)

@@ -7,7 +7,8 @@ that is a prefixed form of the same SI unit (kV stays kV), else in the SI unit. 
 the cfg (relay playback files need this). The multiplier ``a`` and offset ``b`` are chosen per
 channel so that the values span the integer range (±32767 for BINARY and ASCII, ±2147483647
 for BINARY32; the most negative integer is the missing-value marker); FLOAT32 stores the
-values themselves (a = 1, b = 0).
+values divided by a power of two near their peak (b = 0), which is exact and keeps float32
+away from overflow and underflow.
 
 Time: the declared sample rates come from the record's uniform segments; the .dat timestamps
 carry every gap, and the writer checks that the reader rebuilds the record's time axis from
@@ -138,8 +139,10 @@ def _analog_specs(
         miss = ~np.isfinite(values)
         finite = values[~miss]
         if data_format == "FLOAT32":
-            a, b = 1.0, 0.0
-            x = values.astype(np.float32).astype(np.float64)
+            # a power of two brings the values near 1 (exact, no overflow or underflow)
+            peak = float(np.max(np.abs(finite))) if finite.size else 0.0
+            a, b = (2.0 ** math.floor(math.log2(peak)) if peak > 0 else 1.0), 0.0
+            x = (values / a).astype(np.float32).astype(np.float64)
             if finite.size and not np.isfinite(x[~miss]).all():
                 raise FormatError(f"record: channel {ch.name!r} exceeds the FLOAT32 range")
             lo = float(x[~miss].min()) if finite.size else 0.0
