@@ -49,20 +49,36 @@ def format_report(line: Any, results: dict[str, Any], detuning: Any | None) -> s
         + ("" if first.profile is None else "; worst fault position of a scan along the line")
     )
     out.append("")
-    out.append(
-        "  phase  fault at   arc current  capacitive  inductive  recovery voltage   "
-        "free freq.  beat"
+    head = (
+        ("phase", "", 5),
+        ("fault at", "[km]", 8),
+        ("arc current", "[A rms]", 11),
+        ("capacitive", "[A]", 10),
+        ("inductive", "[A]", 9),
+        ("recovery", "[kV rms]", 9),
+        ("", "[pu]", 6),
+        ("highest", "[kV pk]", 8),
+        ("free freq.", "[Hz]", 10),
+        ("beat", "[Hz]", 6),
     )
     out.append(
-        "         [km]       [A rms]      [A]         [A]        [kV rms]   [pu]   [Hz]        [Hz]"
+        "  " + "  ".join(f"{a:>{n}}" if i else f"{a:<{n}}" for i, (a, _, n) in enumerate(head))
     )
+    out.append("  " + "  ".join(f"{b:>{n}}" for _, b, n in head))
     for ph, r in results.items():
-        out.append(
-            f"  {ph:<5}  {r.fault_at_m / 1e3:8.1f}  {r.secondary_arc_current_rms_a:11.2f}  "
-            f"{r.capacitive_component_a:10.2f}  {r.inductive_component_a:9.2f}  "
-            f"{r.recovery_voltage_rms_v / 1e3:9.2f}  {r.recovery_voltage_pu:6.4f}   "
-            f"{_num(r.free_frequency_hz, fmt='.2f'):>9}  {_num(r.beat_frequency_hz, fmt='.2f'):>5}"
+        cells = (
+            f"{ph:<5}",
+            f"{r.fault_at_m / 1e3:8.1f}",
+            f"{r.secondary_arc_current_rms_a:11.2f}",
+            f"{r.capacitive_component_a:10.2f}",
+            f"{r.inductive_component_a:9.2f}",
+            f"{r.recovery_voltage_rms_v / 1e3:9.2f}",
+            f"{r.recovery_voltage_pu:6.4f}",
+            f"{r.recovery_voltage_peak_max_v / 1e3:8.1f}",
+            f"{_num(r.free_frequency_hz, fmt='.2f'):>10}",
+            f"{_num(r.beat_frequency_hz, fmt='.2f'):>6}",
         )
+        out.append("  " + "  ".join(cells))
     if detuning is not None:
         out.append("")
         out.append("  neutral reactor detuning (all banks scaled together):")
@@ -76,7 +92,9 @@ def format_report(line: Any, results: dict[str, Any], detuning: Any | None) -> s
             )
     out.append("")
     out.append("  Steady state at rated frequency, the arc taken as a short circuit. After")
-    out.append("  extinction the free oscillation beats with the forced recovery voltage.")
+    out.append("  extinction the free part (trapped charge, or the oscillation at the free")
+    out.append("  frequency) adds to the forced recovery voltage: 'highest' = 2·√2·rms,")
+    out.append("  a lossless upper estimate.")
     out.append(CAUTION)
     return "\n".join(out)
 

@@ -158,6 +158,20 @@ class CouplingResult:
         """Recovery voltage over the rated phase voltage."""
         return self.recovery_voltage_rms_v / self.v_phase_v
 
+    @property
+    def recovery_voltage_peak_max_v(self) -> float:
+        """Highest instantaneous recovery voltage after extinction, ``2·√2·V_rec``.
+
+        At the current zero that ends the arc the open phase is at (nearly) zero volts while
+        the forced recovery voltage, in quadrature with the arc current in a lossless
+        network, is at its peak; the free part (trapped charge on an uncompensated line, the
+        oscillation at ``f_n`` with reactors) therefore starts equal and opposite to the
+        forced peak, and the two add up to twice the forced peak half a beat later (or half
+        a cycle later without reactors). Losses and the arc voltage make the real peak a
+        little lower: an upper estimate.
+        """
+        return 2.0 * math.sqrt(2.0) * self.recovery_voltage_rms_v
+
     def to_dict(self) -> dict[str, Any]:
         """SI-keyed dictionary (JSON-ready; ``nan`` stays ``nan``)."""
         return {
@@ -174,6 +188,7 @@ class CouplingResult:
             "inductive_component_a": self.inductive_component_a,
             "recovery_voltage_rms_v": self.recovery_voltage_rms_v,
             "recovery_voltage_pu": self.recovery_voltage_pu,
+            "recovery_voltage_peak_max_v": self.recovery_voltage_peak_max_v,
             "recovery_voltage_capacitive_v": self.recovery_voltage_capacitive_v,
             "recovery_voltage_inductive_v": self.recovery_voltage_inductive_v,
             "recovery_voltage_from_end_v": self.recovery_voltage_from_end_v,
