@@ -144,6 +144,9 @@ def test_bad_results_are_refused_before_writing(db_url: str) -> None:
         with pytest.raises(FormatError, match=r"records/bad\.cfg.*sha256"):
             store.ingest_many([good[0], bad])
         assert store.counts()["records"] == 0
+        with pytest.raises(FormatError, match="'start'"):  # caught before anything is written
+            store.ingest_many([good[0], dict(good[1], start="the day before")])
+        assert store.counts()["records"] == 0
         with pytest.raises(FormatError, match="restrike"):
             store.ingest(dict(good[0], restrike_voltage_v=[1.0, 2.0, 3.0, 4.0]))
         with pytest.raises(FormatError, match="'start'"):

@@ -11,9 +11,7 @@ advisory lock around migrations.
 
 from __future__ import annotations
 
-import dataclasses
 import json
-import math
 import os
 import random
 import time
@@ -25,8 +23,21 @@ from typing import TYPE_CHECKING, Any, Literal, TypeVar
 
 import sqlalchemy as sa
 
-from recordscan.errors import FormatError, StoreError
+from recordscan.errors import StoreError
 from recordscan.fleet import schema as S
+from recordscan.fleet.convert import SHA_CHARS, Prepared, line_fields, parse_instant_ns, prepare
+
+__all__ = [
+    "ENV_VAR",
+    "EventFilter",
+    "IngestOutcome",
+    "IngestSummary",
+    "Store",
+    "default_location",
+    "migrate",
+    "open_store",
+    "parse_instant_ns",
+]
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -35,7 +46,6 @@ T = TypeVar("T")
 
 #: Environment variable that overrides the default database location.
 ENV_VAR = "RECORDSCAN_DB"
-_SHA_CHARS = frozenset("0123456789abcdef")
 _PG_LOCK_KEY = 720_611_006  # arbitrary constant: serialises migrations on PostgreSQL
 _RETRY_ATTEMPTS = 30
 
@@ -182,181 +192,6 @@ class EventFilter:
     tag: tuple[str, str] | None = None
 
 
-# ---------------------------------------------------------------------------- conversions
-def _jsonable(obj: Any) -> Any:
-    if dataclasses.is_dataclass(obj) and not isinstance(obj, type):
-        return _jsonable({f.name: getattr(obj, f.name) for f in dataclasses.fields(obj)})
-    if isinstance(obj, Mapping):
-        return {str(k): _jsonable(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple, set, frozenset)):
-        return [_jsonable(v) for v in obj]
-    if hasattr(obj, "tolist") and callable(obj.tolist):  # numpy arrays and scalars
-        return _jsonable(obj.tolist())
-    if isinstance(obj, float) and not math.isfinite(obj):
-        return None
-    if isinstance(obj, (str, int, float, bool)) or obj is None:
-        return obj
-    return str(obj)
-
-
-def _dumps(obj: Any) -> str:
-    return json.dumps(_jsonable(obj), ensure_ascii=False, allow_nan=False, sort_keys=True)
-
-
-def _float(value: Any, *, name: str, where: str) -> float | None:
-    if value is None:
-        return None
-    if isinstance(value, bool) or not isinstance(value, (int, float)):
-        if hasattr(value, "item"):
-            return _float(value.item(), name=name, where=where)
-        raise FormatError(f"{where}: field {name!r} must be a number or null, got {value!r}")
-    out = float(value)
-    return out if math.isfinite(out) else None
-
-
-def _text(value: Any, *, name: str, where: str) -> str | None:
-    if value is None:
-        return None
-    if not isinstance(value, str):
-        raise FormatError(f"{where}: field {name!r} must be text or null, got {value!r}")
-    return value
-
-
-def parse_instant_ns(text: str, *, where: str = "value") -> int:
-    """ISO 8601 instant → integer UTC nanoseconds (naive instants are taken as UTC).
-
-    Parameters
-    ----------
-    text : str
-        e.g. ``"2026-03-14T09:26:53.589793238Z"`` or ``"2026-03-14"``.
-    where : str
-        Named in the error message.
-
-    Returns
-    -------
-    int
-        Nanoseconds since 1970-01-01T00:00:00Z.
-    """
-    import pandas as pd
-
-    try:
-        ts = pd.Timestamp(text)
-    except (ValueError, TypeError) as exc:
-        raise FormatError(f"{where}: {text!r} is not an ISO 8601 instant ({exc})") from None
-    if ts is pd.NaT:
-        raise FormatError(f"{where}: {text!r} is not an ISO 8601 instant")
-    ts = ts.tz_localize("UTC") if ts.tzinfo is None else ts.tz_convert("UTC")
-    return int(ts.value)
-
-
-def _where(result: Mapping[str, Any]) -> str:
-    return f"scan result for {result.get('file') or result.get('sha256') or '<unnamed record>'}"
-
-
-def _check_result(result: Any) -> str:
-    """Validate the parts of a scan result the store relies on; return its sha256."""
-    if not isinstance(result, Mapping):
-        raise FormatError(f"scan result: expected a JSON object, got {type(result).__name__}")
-    where = _where(result)
-    version = result.get("schema")
-    if isinstance(version, bool) or not isinstance(version, int) or version < 1:
-        raise FormatError(f"{where}: 'schema' must be a scan schema version >= 1, got {version!r}")
-    sha = result.get("sha256")
-    if not isinstance(sha, str) or len(sha) != 64 or not set(sha.lower()) <= _SHA_CHARS:
-        raise FormatError(f"{where}: 'sha256' must be 64 hexadecimal digits, got {sha!r}")
-    if result.get("status") not in ("ok", "error"):
-        raise FormatError(f"{where}: 'status' must be 'ok' or 'error'")
-    if result["status"] == "ok" and not isinstance(result.get("event"), str):
-        raise FormatError(f"{where}: 'event' must be text for an analysed record")
-    times = result.get("restrike_s") or []
-    volts = result.get("restrike_voltage_v") or []
-    if not isinstance(times, list) or not isinstance(volts, list):
-        raise FormatError(f"{where}: 'restrike_s' and 'restrike_voltage_v' must be lists")
-    if volts and len(volts) != len(times):
-        raise FormatError(
-            f"{where}: {len(times)} restrike instants but {len(volts)} restrike voltages"
-        )
-    censored = result.get("extinction_censored", False)
-    if censored is not None and not isinstance(censored, bool):
-        raise FormatError(f"{where}: 'extinction_censored' must be true or false")
-    return sha.lower()
-
-
-def _line_fields(line: Any) -> dict[str, Any]:
-    """A line description (dataclass from ``load_line`` or plain dict) → ``lines`` columns."""
-    if hasattr(line, "to_dict") and callable(line.to_dict):
-        data = _jsonable(line.to_dict())
-    elif dataclasses.is_dataclass(line) and not isinstance(line, type):
-        data = _jsonable(line)
-    elif isinstance(line, Mapping):
-        data = _jsonable(dict(line))
-    else:
-        raise FormatError(f"line description: expected a mapping, got {type(line).__name__}")
-    name = data.get("name")
-    if not isinstance(name, str) or not name.strip():
-        raise FormatError("line description: 'name' must be non-empty text")
-    where = f"line description {name!r}"
-    reactors = data.get("reactors")
-    if reactors is None and ("reactor_from" in data or "reactor_to" in data):
-        reactors = [r for r in (data.get("reactor_from"), data.get("reactor_to")) if r]
-    compensation = data.get("compensation")
-    if isinstance(compensation, (int, float)) and not isinstance(compensation, bool):
-        # a positive-sequence shunt compensation degree (fraction)
-        compensation = f"{100.0 * compensation:.0f} % shunt" if compensation > 0 else "none"
-    if compensation is None and reactors is not None:
-        compensation = "shunt reactors" if reactors else "none"
-    return {
-        "name": name.strip(),
-        "voltage_v": _float(data.get("voltage_v"), name="voltage_v", where=where),
-        "length_m": _float(data.get("length_m"), name="length_m", where=where),
-        "frequency_hz": _float(data.get("frequency_hz"), name="frequency_hz", where=where),
-        "dead_time_s": _float(data.get("dead_time_s"), name="dead_time_s", where=where),
-        "compensation": None if compensation is None else str(compensation),
-        "reactors_json": None if reactors is None else _dumps(reactors),
-        "description_json": _dumps(data),
-    }
-
-
-def _event_row(result: Mapping[str, Any], where: str) -> dict[str, Any]:
-    row: dict[str, Any] = {}
-    for name in S.EVENT_TEXT_FIELDS:
-        row[name] = _text(result.get(name), name=name, where=where)
-    for name in S.EVENT_FLOAT_FIELDS:
-        row[name] = _float(result.get(name), name=name, where=where)
-    row["extinction_censored"] = bool(result.get("extinction_censored") or False)
-    row["n_restrikes"] = len(result.get("restrike_s") or [])
-    rules = result.get("deionisation_rules")
-    row["deionisation_rules_json"] = None if rules is None else _dumps(rules)
-    warns = result.get("warnings")
-    row["warnings_json"] = None if warns is None else _dumps(warns)
-    row["result_json"] = _dumps(result)
-    return row
-
-
-def _fit_row(fit: Mapping[str, Any], where: str) -> dict[str, Any]:
-    where = f"{where}, arc fit"
-    method = fit.get("method")
-    if not isinstance(method, str) or not method:
-        raise FormatError(f"{where}: 'method' must be non-empty text")
-    row: dict[str, Any] = {"method": method}
-    for name in S.FIT_PARAMETERS:
-        row[name] = _float(fit.get(name), name=name, where=where)
-        row[f"{name}_stderr"] = _float(
-            fit.get(f"{name}_stderr"), name=f"{name}_stderr", where=where
-        )
-        status = fit.get(f"{name}_status")
-        row[f"{name}_status"] = None if status is None else str(status)
-    row["elongation_law"] = _text(fit.get("elongation_law"), name="elongation_law", where=where)
-    params = fit.get("elongation_params")
-    row["elongation_params_json"] = None if params is None else _dumps(params)
-    row["residual_rms"] = _float(fit.get("residual_rms"), name="residual_rms", where=where)
-    success = fit.get("success")
-    row["success"] = None if success is None else bool(success)
-    row["message"] = None if fit.get("message") is None else str(fit.get("message"))
-    row["fit_json"] = _dumps(fit)
-    return row
-
-
 # ---------------------------------------------------------------------------- the store
 class Store:
     """An open arc-parameter database. Create with :func:`open_store`.
@@ -432,7 +267,7 @@ class Store:
             ``name`` (and any of ``voltage_v``, ``length_m``, ``frequency_hz``,
             ``dead_time_s``, ``reactors``, ``compensation``).
         """
-        fields = _line_fields(line)
+        fields = line_fields(line)
         return self._write(lambda conn: _ensure_line(conn, fields, full=True))
 
     def ingest(
@@ -468,9 +303,7 @@ class Store:
         -------
         IngestOutcome
         """
-        sha = _check_result(result)
-        where = _where(result)
-        prepared = _prepare(result, sha, where, record_meta=record_meta, line=line, fit=fit)
+        prepared = prepare(result, record_meta=record_meta, line=line, fit=fit)
         tag_rows = {str(k): str(v) for k, v in (tags or {}).items()}
         return self._write(lambda conn: _insert(conn, prepared, tag_rows, replace=replace))
 
@@ -484,15 +317,16 @@ class Store:
     ) -> IngestSummary:
         """Store many scan results, each in its own transaction.
 
-        Every result is validated before the first is written, so a bad entry stores
-        nothing. ``line`` and ``tags`` apply to all of them.
+        Every result is validated and converted before the first is written, so a bad
+        entry stores nothing. ``line`` and ``tags`` apply to all of them.
         """
-        items = list(results)
-        for item in items:
-            _check_result(item)
+        prepared = [prepare(r, record_meta=None, line=line, fit=None) for r in results]
+        tag_rows = {str(k): str(v) for k, v in (tags or {}).items()}
         summary = IngestSummary()
-        for item in items:
-            summary.outcomes.append(self.ingest(item, line=line, tags=tags, replace=replace))
+        for item in prepared:
+            summary.outcomes.append(
+                self._write(lambda conn, p=item: _insert(conn, p, tag_rows, replace=replace))
+            )
         return summary
 
     def tag(self, sha256_prefix: str, *, key: str, value: str | None) -> str:
@@ -681,7 +515,7 @@ def _apply_filter(q: sa.Select, flt: EventFilter) -> sa.Select:
 
 def _find_record(conn: sa.Connection, prefix: str, url: str) -> tuple[int, str]:
     p = prefix.strip().lower()
-    if len(p) < 4 or not set(p) <= _SHA_CHARS:
+    if len(p) < 4 or not set(p) <= SHA_CHARS:
         raise StoreError(f"{p!r}: give at least 4 hexadecimal digits of the record's sha256")
     rows = conn.execute(
         sa.select(S.records.c.id, S.records.c.sha256)
@@ -693,80 +527,6 @@ def _find_record(conn: sa.Connection, prefix: str, url: str) -> tuple[int, str]:
     if len(rows) > 1:
         raise StoreError(f"{url}: several records match {p}; give more digits")
     return int(rows[0][0]), str(rows[0][1])
-
-
-@dataclass(frozen=True)
-class _Prepared:
-    sha256: str
-    record: dict[str, Any]
-    line: dict[str, Any] | None
-    event: dict[str, Any] | None
-    restrikes: list[dict[str, Any]]
-    fit: dict[str, Any] | None
-
-
-def _prepare(
-    result: Mapping[str, Any],
-    sha: str,
-    where: str,
-    *,
-    record_meta: Mapping[str, Any] | None,
-    line: Any,
-    fit: Mapping[str, Any] | None,
-) -> _Prepared:
-    start = _text(result.get("start"), name="start", where=where)
-    versions = result.get("versions") if isinstance(result.get("versions"), Mapping) else {}
-    record = {
-        "sha256": sha,
-        "path": _text(result.get("file"), name="file", where=where),
-        "station": _text(result.get("station"), name="station", where=where),
-        "device": _text(result.get("device"), name="device", where=where),
-        "start": start,
-        "start_ns": None if start is None else parse_instant_ns(start, where=f"{where}, 'start'"),
-        "frequency_hz": _float(result.get("frequency_hz"), name="frequency_hz", where=where),
-        "sample_rate_hz": _float(result.get("sample_rate_hz"), name="sample_rate_hz", where=where),
-        "status": result["status"],
-        "error": _text(result.get("error"), name="error", where=where),
-        "scan_schema": int(result["schema"]),
-        "recordscan_version": None if not versions else str(versions.get("recordscan")),
-        "meta_json": None if record_meta is None else _dumps(record_meta),
-    }
-    line_fields: dict[str, Any] | None
-    if line is not None:
-        line_fields = _line_fields(line)
-    else:
-        name = _text(result.get("line"), name="line", where=where)
-        kv = _float(result.get("voltage_kv"), name="voltage_kv", where=where)
-        line_fields = None
-        if name:
-            line_fields = {"name": name, "voltage_v": None if kv is None else kv * 1e3}
-    event = None
-    restrike_rows: list[dict[str, Any]] = []
-    if result["status"] == "ok":
-        event = _event_row(result, where)
-        kv = _float(result.get("voltage_kv"), name="voltage_kv", where=where)
-        event["voltage_v"] = kv * 1e3 if kv is not None else None
-        if line_fields is not None:
-            event["line"] = line_fields["name"]
-            if event["voltage_v"] is None:
-                event["voltage_v"] = line_fields.get("voltage_v")
-        else:
-            event["line"] = None
-        times = result.get("restrike_s") or []
-        volts = result.get("restrike_voltage_v") or [None] * len(times)
-        for seq, (t, v) in enumerate(zip(times, volts, strict=True)):
-            t_s = _float(t, name="restrike_s", where=where)
-            if t_s is None:
-                raise FormatError(f"{where}: restrike instant {seq} is not a finite number")
-            restrike_rows.append(
-                {
-                    "seq": seq,
-                    "t_s": t_s,
-                    "voltage_v": _float(v, name="restrike_voltage_v", where=where),
-                }
-            )
-    fit_row = None if fit is None else _fit_row(fit, where)
-    return _Prepared(sha, record, line_fields, event, restrike_rows, fit_row)
 
 
 def _dialect_insert(conn: sa.Connection, table: sa.Table) -> Any:
@@ -808,7 +568,7 @@ def _delete_record(conn: sa.Connection, rec_id: int) -> None:
 
 
 def _insert(
-    conn: sa.Connection, p: _Prepared, tag_rows: Mapping[str, str], *, replace: bool
+    conn: sa.Connection, p: Prepared, tag_rows: Mapping[str, str], *, replace: bool
 ) -> IngestOutcome:
     status: Literal["added", "duplicate", "replaced"] = "added"
     existing = conn.execute(
