@@ -106,3 +106,11 @@ def test_infeasible_neutral_reactor() -> None:
 
 def test_free_frequency_without_reactors_is_nan() -> None:
     assert math.isnan(free_frequency_hz(c1_f=C1_F, c0_f=C0_F, reactors=(), frequency_hz=F_HZ))
+
+
+def test_to_dict_is_strict_json() -> None:
+    import json
+
+    d = FourLeggedReactor(x_phase_ohm=1000.0).to_dict()
+    assert d["phase_to_phase_ohm"] is None and d["quality_factor"] is None
+    json.dumps(d, allow_nan=False)

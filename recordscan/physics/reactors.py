@@ -122,14 +122,18 @@ class FourLeggedReactor:
             quality_factor=self.quality_factor,
         )
 
-    def to_dict(self) -> dict[str, float]:
-        """SI-keyed description."""
+    def to_dict(self) -> dict[str, float | None]:
+        """SI-keyed description; infinite values (solid neutral, lossless) become ``None``."""
+
+        def fin(x: float) -> float | None:
+            return x if math.isfinite(x) else None
+
         return {
             "phase_reactor_ohm": self.x_phase_ohm,
             "neutral_reactor_ohm": self.x_neutral_ohm,
             "phase_to_ground_ohm": self.x_pg_ohm,
-            "phase_to_phase_ohm": self.x_pp_ohm,
-            "quality_factor": self.quality_factor,
+            "phase_to_phase_ohm": fin(self.x_pp_ohm),
+            "quality_factor": fin(self.quality_factor),
         }
 
 
