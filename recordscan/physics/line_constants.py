@@ -5,11 +5,12 @@ Series impedance
     conductor (GMR of the bundle for inductance, resistance divided by ``n``). The earth
     return is added either by Carson's correction terms (series expansion of Carson's
     integral, J. R. Carson, "Wave propagation in overhead wires with ground return", Bell
-    System Technical Journal 5, 1926; series form as in H. W. Dommel, *EMTP Theory Book*,
-    1986, section 4.1.2.3) or by the complex-depth approximation (A. Deri, G. Tevan,
-    A. Semlyen and A. Castanheira, "The complex ground return plane", IEEE Trans. PAS-100(8),
-    1981; C. Gary, 1976). Shield wires, grounded at every tower, are eliminated by Kron
-    reduction.
+    System Technical Journal 5, 1926; coefficients b_i, c_i, d_i in the tabulated form of
+    the transients literature, e.g. H. W. Dommel, 1986, from memory, and verified in the
+    tests against a numerical evaluation of Carson's integral) or by the complex-depth
+    approximation (A. Deri, G. Tevan, A. Semlyen and A. Castanheira, "The complex ground
+    return plane", IEEE Trans. PAS-100(8), 1981; C. Gary, 1976, from memory). Shield wires,
+    grounded at every tower, are eliminated by Kron reduction.
 
 Shunt capacitance
     Maxwell potential coefficients with the images of the conductors in a perfectly
@@ -244,7 +245,7 @@ class TowerGeometry:
 
 
 def _carson_coefficients(n_terms: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Coefficients b_i, c_i, d_i of Carson's series (Dommel, EMTP Theory Book, 4.1.2.3)."""
+    """Coefficients b_i, c_i, d_i of Carson's series (Carson 1926; tabulated form)."""
     b = np.zeros(n_terms + 1)
     c = np.zeros(n_terms + 1)
     b[1] = math.sqrt(2.0) / 6.0
