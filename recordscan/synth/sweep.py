@@ -230,7 +230,8 @@ def draw_scenario(
         restrike=True,
         recovery_rate_scale=float(math.exp(rng.uniform(math.log(lo), math.log(hi)))),
     )
-    dead = round(max(_u(rng, r.dead_time_s), min_deionisation_time_s(kv * 1e3)), 3)
+    dead = max(_u(rng, r.dead_time_s), min_deionisation_time_s(kv * 1e3))
+    dead = math.ceil(dead * 1e3 - 1e-9) / 1e3  # whole ms, never below the minimum
     breaker = BreakerSettings(
         relay_time_s=round(_u(rng, r.relay_time_s), 4),
         opening_time_s=round(_u(rng, r.opening_time_s), 4),
