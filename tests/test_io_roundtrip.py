@@ -3,8 +3,8 @@
 The check is the format's own quantisation: a value read back equals a·x + b for the stored
 integer x (IEEE Std C37.111-2013, analog channel scaling, from memory), so it lies within
 a/2 of the written value; FLOAT32 keeps float32 precision (IEEE 754 binary32, 24-bit
-significand: relative error ≤ 2**-24, normal range from 2**-126). Time is kept within half a timestamp count. The
-records are invented (fictional Valdmere scenario).
+significand: relative error ≤ 2**-24, normal range from 2**-126). Time is kept within half
+a timestamp count. The records are invented (fictional Valdmere scenario).
 """
 
 from __future__ import annotations
@@ -140,11 +140,14 @@ def test_long_record_uses_timemult(tmp_path: Path) -> None:
     np.testing.assert_allclose(back.t_s, t, atol=1e-6)
 
 
-@pytest.mark.parametrize(("enc", "station", "name"), [
-    ("cp1251", "Подстанция Элдерби", "Ток фаза А"),
-    ("gbk", "阿什科姆变电站", "线路电压A相"),
-    ("latin-1", "Estação Corrow", "Tensão fase A"),
-])
+@pytest.mark.parametrize(
+    ("enc", "station", "name"),
+    [
+        ("cp1251", "Подстанция Элдерби", "Ток фаза А"),
+        ("gbk", "阿什科姆变电站", "线路电压A相"),
+        ("latin-1", "Estação Corrow", "Tensão fase A"),
+    ],
+)
 def test_legacy_encodings_are_detected(tmp_path: Path, enc: str, station: str, name: str) -> None:
     rec = Record(
         t_s=np.arange(4) / 1000.0,

@@ -166,9 +166,7 @@ def _simple_cfg(*, nrates_block: str, ft: str = "BINARY", timemult: str = "1") -
 
 
 def _simple_bin(stamps: list[int]) -> bytes:
-    return b"".join(
-        struct.pack("<IIhH", k + 1, ts, k, k % 2) for k, ts in enumerate(stamps)
-    )
+    return b"".join(struct.pack("<IIhH", k + 1, ts, k, k % 2) for k, ts in enumerate(stamps))
 
 
 def test_gap_in_timestamps_is_kept(tmp_path: Path) -> None:
@@ -195,9 +193,7 @@ def test_timestamp_only_records(tmp_path: Path, block: str) -> None:
     # nrates = 0 (with or without the '0,endsamp' line) and nrates = 1 with samp = 0:
     # the .dat timestamps are the only time source; timemult scales them (C37.111-1999)
     stamps = [0, 100, 200, 500_000]
-    cfg = _put(
-        tmp_path, "ts", _simple_cfg(nrates_block=block, timemult="2.5"), _simple_bin(stamps)
-    )
+    cfg = _put(tmp_path, "ts", _simple_cfg(nrates_block=block, timemult="2.5"), _simple_bin(stamps))
     rec = read(cfg, assign_roles=False)
     np.testing.assert_allclose(rec.t_s, np.array(stamps) * 2.5e-6, atol=1e-15)
     assert rec.provenance.time_source == "timestamps"

@@ -153,14 +153,21 @@ class _Lines:
     def peek(self) -> str | None:
         return self.items[self.pos][1] if self.pos < len(self.items) else None
 
+    def blank_before(self, no: int) -> bool:
+        """True when the physical line before line ``no`` was blank (skipped)."""
+        prev = self.items[self.pos - 2][0] if self.pos >= 2 else 0
+        return no - prev > 1
+
     def remaining(self) -> int:
         return len(self.items) - self.pos
 
 
-def _fields(line: str) -> list[str]:
+def _fields(line: str, want: int | None = None) -> list[str]:
+    """Split a cfg line on commas; drop empty fields beyond ``want`` (trailing commas)."""
     parts = [p.strip() for p in line.split(",")]
-    while len(parts) > 1 and parts[-1] == "":
-        parts.pop()  # tolerate trailing commas
+    if want is not None:
+        while len(parts) > want and parts[-1] == "":
+            parts.pop()
     return parts
 
 
@@ -224,7 +231,7 @@ def parse_stamp(
         date gives None.
     """
     notes: list[str] = []
-    parts = _fields(line)
+    parts = _fields(line, 2)
     if len(parts) == 1 and parts[0] == "":
         return None, 0, notes
     if len(parts) != 2:
@@ -321,7 +328,7 @@ def parse_cfg(text: str, *, name: str) -> Config:
 
     # line 1: station_name,rec_dev_id[,rev_year]
     no, line = lines.next("station")
-    parts = _fields(line)
+    parts = _fields(line, 3)
     if len(parts) == 2:
         station, device, revision = parts[0], parts[1], "1991"
     elif len(parts) == 3:
@@ -339,7 +346,7 @@ def parse_cfg(text: str, *, name: str) -> Config:
 
     # line 2: TT,##A,##D
     no, line = lines.next("channel count")
-    parts = _fields(line)
+    parts = _fields(line, 3)
     if len(parts) != 3:
         raise FormatError(f"{name}: line {no}: channel count line should be 'TT,nA,nD'")
     total = _int(parts[0], name, no, "total channel count")
@@ -354,6 +361,12 @@ def parse_cfg(text: str, *, name: str) -> Config:
     status = tuple(_parse_status(lines, k + 1, name, notes) for k in range(n_status))
 
     no, line = lines.next("line frequency")
+    nxt = lines.peek()
+    if "," not in line and nxt is not None and "," in nxt and lines.blank_before(no):
+        # the lf line was left blank (the next two lines are nrates and samp,endsamp)
+        lines.pos -= 1
+        line = "0"
+        notes.append("blank line frequency read as 0")
     if "," in line:
         raise FormatError(
             f"{name}: line {no}: expected the line frequency, found {line!r} "
@@ -369,11 +382,11 @@ def parse_cfg(text: str, *, name: str) -> Config:
     n_rate_lines = nrates
     if nrates == 0:
         nxt = lines.peek()
-        if nxt is not None and "/" not in nxt and ":" not in nxt and len(_fields(nxt)) == 2:
+        if nxt is not None and "/" not in nxt and ":" not in nxt and len(_fields(nxt, 2)) == 2:
             n_rate_lines = 1
     for _ in range(n_rate_lines):
         no, line = lines.next("sample rate")
-        parts = _fields(line)
+        parts = _fields(line, 2)
         if len(parts) != 2:
             raise FormatError(f"{name}: line {no}: sample rate line should be 'samp,endsamp'")
         samp = _float(parts[0], name, no, "sample rate")
@@ -393,12 +406,20 @@ def parse_cfg(text: str, *, name: str) -> Config:
     if nrates > 1 and any(r == 0 for r, _ in rates):
         raise FormatError(f"{name}: zero sample rate in a record with {nrates} sample rates")
 
-    no, line = lines.next("start date/time")
-    start_ns, d1, stamp_notes = parse_stamp(line, revision=revision, name=name, no=no)
-    notes += stamp_notes
-    no, line = lines.next("trigger date/time")
-    trigger_ns, d2, stamp_notes = parse_stamp(line, revision=revision, name=name, no=no)
-    notes += stamp_notes
+    stamps: list[int | None] = []
+    digits = [0, 0]
+    for k, what in enumerate(("start date/time", "trigger date/time")):
+        no, line = lines.next(what)
+        if line.strip().upper() in ALL_FORMATS:
+            lines.pos -= 1  # the stamp line was left blank
+            notes.append(f"{what} line is blank")
+            stamps.append(None)
+            continue
+        value, digits[k], stamp_notes = parse_stamp(line, revision=revision, name=name, no=no)
+        notes += stamp_notes
+        stamps.append(value)
+    start_ns, trigger_ns = stamps
+    d1, d2 = digits
 
     no, line = lines.next("data file type")
     data_format = line.strip().upper()
@@ -420,14 +441,14 @@ def parse_cfg(text: str, *, name: str) -> Config:
             notes.append("no timemult line; 1 assumed")
     if revision == "2013" and lines.remaining():
         no, line = lines.next("time_code,local_code")
-        parts = [*_fields(line), "", ""]
+        parts = [*_fields(line, 2), "", ""]
         tz_offset_ns = parse_tz(parts[0])
         local_code = parts[1]
         if tz_offset_ns is None:
             notes.append(f"time_code {parts[0]!r} not understood; stamps taken as UTC")
         if lines.remaining():
             no, line = lines.next("tmq_code,leapsec")
-            parts = [*_fields(line), "", ""]
+            parts = [*_fields(line, 2), "", ""]
             tmq_code, leapsec = parts[0], parts[1]
     if revision != "2013":
         notes.append("cfg gives no time zone; stamps taken as UTC")
@@ -461,7 +482,9 @@ def _parse_analog(
     lines: _Lines, position: int, revision: str, name: str, notes: list[str]
 ) -> AnalogSpec:
     no, line = lines.next(f"analog channel {position}")
-    parts = _fields(line)
+    parts = _fields(line, 13)
+    if len(parts) == 11 and parts[-1] == "":
+        parts.pop()  # a 10-field line with a trailing comma
     n = len(parts)
     if revision == "1991" and n == 13:
         want = 13
@@ -514,7 +537,9 @@ def _parse_analog(
 
 def _parse_status(lines: _Lines, position: int, name: str, notes: list[str]) -> StatusSpec:
     no, line = lines.next(f"status channel {position}")
-    parts = _fields(line)
+    parts = _fields(line, 5)
+    if len(parts) == 4 and parts[-1] == "":
+        parts.pop()  # a 1991 3-field line with a trailing comma
     if len(parts) == 3:  # 1991: n,ch_id,y
         parts = [parts[0], parts[1], "", "", parts[2]]
     if len(parts) != 5:
