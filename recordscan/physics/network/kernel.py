@@ -170,6 +170,8 @@ def run_kernel(
     i_arc = np.zeros(3)
     hk = np.zeros(3)
     hm = np.zeros(3)
+    a_m = np.zeros((3, 3))
+    tw_hist = np.zeros((max(n_seg, 1), 2, 3))
     tmp3 = np.zeros(3)
     arc_nodes = np.zeros(max(n_arc, 1), dtype=np.int64)
     for k in range(n_arc):
@@ -219,6 +221,8 @@ def run_kernel(
                 a2 = 0.5 * (1.0 - hh)
                 hk[md] = -a1 * (vm_d / zp + hh * im_d) - a2 * (vk_d / zp + hh * ik_d)
                 hm[md] = -a1 * (vk_d / zp + hh * ik_d) - a2 * (vm_d / zp + hh * im_d)
+                tw_hist[s, 0, md] = hk[md]
+                tw_hist[s, 1, md] = hm[md]
             for ph in range(3):
                 sk = 0.0
                 sm = 0.0
@@ -261,7 +265,6 @@ def run_kernel(
                 if g_b[k] > 0.0:
                     n_live += 1
         if n_live > 0:
-            a_m = np.zeros((3, 3))
             for r in range(n_arc):
                 rhs[r] = g_b[r] * v[arc_nodes[r]]
                 for c in range(n_arc):
@@ -298,7 +301,7 @@ def run_kernel(
                 u_prev[off + r] = tmp3[r]
         for p in range(n_ports):
             i_prev[p] = i_port[p]
-        # travelling-wave buffers
+        # travelling-wave buffers: modal end voltages and currents of this step
         jn = n % nbuf
         for s in range(n_seg):
             for md in range(3):
@@ -308,27 +311,10 @@ def run_kernel(
                     vkm += clarke[ph, md] * v[tw_k[s, ph]]
                     vmm += clarke[ph, md] * v[tw_m[s, ph]]
                 zp = tw_zp[s, md]
-                hk[md] = vkm
-                hm[md] = vmm
-            for md in range(3):
-                q = tw_q[s, md]
-                fr = tw_frac[s, md]
-                j0 = (n - q) % nbuf
-                j1 = (n - q - 1) % nbuf
-                vk_d = tw_vk[s, md, j0] * (1.0 - fr) + tw_vk[s, md, j1] * fr
-                vm_d = tw_vm[s, md, j0] * (1.0 - fr) + tw_vm[s, md, j1] * fr
-                ik_d = tw_ik[s, md, j0] * (1.0 - fr) + tw_ik[s, md, j1] * fr
-                im_d = tw_im[s, md, j0] * (1.0 - fr) + tw_im[s, md, j1] * fr
-                zp = tw_zp[s, md]
-                hh = tw_h[s, md]
-                a1 = 0.5 * (1.0 + hh)
-                a2 = 0.5 * (1.0 - hh)
-                hkk = -a1 * (vm_d / zp + hh * im_d) - a2 * (vk_d / zp + hh * ik_d)
-                hmm = -a1 * (vk_d / zp + hh * ik_d) - a2 * (vm_d / zp + hh * im_d)
-                tw_vk[s, md, jn] = hk[md]
-                tw_vm[s, md, jn] = hm[md]
-                tw_ik[s, md, jn] = hk[md] / zp + hkk
-                tw_im[s, md, jn] = hm[md] / zp + hmm
+                tw_vk[s, md, jn] = vkm
+                tw_vm[s, md, jn] = vmm
+                tw_ik[s, md, jn] = vkm / zp + tw_hist[s, 0, md]
+                tw_im[s, md, jn] = vmm / zp + tw_hist[s, 1, md]
         # breaker currents (bus → line) by Kirchhoff's current law at the bus
         for pole in range(6):
             acc = 0.0
