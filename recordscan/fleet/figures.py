@@ -190,7 +190,7 @@ _PARAMS = (
     ("u0_v_per_m", "arc voltage gradient u0", "V/m", 1.0),
     ("tau0_s", "time constant τ0", "ms", 1e3),
     ("r0_ohm_per_m", "resistance per length r0", "Ω/m", 1.0),
-    ("alpha", "α", "1", 1.0),
+    ("alpha", "exponent α", "", 1.0),
     ("l0_m", "initial arc length l0", "m", 1.0),
 )
 
@@ -206,14 +206,20 @@ def parameter_plots(fits: pd.DataFrame) -> Any:
         ax.axis("off")
         ax.text(0.5, 0.5, "no successful arc-parameter fits stored", ha="center")
         return fig
+    ncols = min(3, len(present))
+    nrows = -(-len(present) // ncols)
     fig, axes = plt.subplots(
-        1, len(present), figsize=(3.0 * len(present), 2.8), layout="constrained", squeeze=False
+        nrows, ncols, figsize=(9.0, 2.9 * nrows), layout="constrained", squeeze=False
     )
-    for ax, (col, label, unit, scale) in zip(axes[0], present, strict=True):
+    flat = list(axes.ravel())
+    for ax in flat[len(present) :]:
+        ax.axis("off")
+    for ax, (col, label, unit, scale) in zip(flat, present, strict=False):
         vals = ok[col].dropna().to_numpy(dtype=float) * scale
         ax.hist(vals, bins=min(20, max(5, vals.size // 3)), color="C0", alpha=0.8)
-        ax.set_xlabel(f"{label} ({unit})", fontsize="small")
-        ax.set_ylabel("fits", fontsize="small")
-        ax.set_title(f"median {np.median(vals):.4g} {unit}, n={vals.size}", fontsize="small")
+        ax.set_xlabel(f"{label} ({unit})" if unit else label)
+        ax.set_ylabel("fits")
+        med = f"{np.median(vals):.4g} {unit}".strip()
+        ax.set_title(f"median {med}, n={vals.size}", fontsize="medium")
         ax.grid(True, alpha=0.3)
     return fig
