@@ -212,3 +212,66 @@ def test_free_frequency_with_tuned_neutral_reactor() -> None:
     expected = math.sqrt((0.7 * C1 - cm) / (C0 + 2 * cm))
     assert expected == pytest.approx(0.80861, abs=1e-5)
     assert f_n / F_HZ == pytest.approx(expected, rel=0.005)
+
+
+def _phasor(t_s: np.ndarray, x: np.ndarray) -> complex:
+    """Complex RMS phasor of the system-frequency component (x ≈ Re(√2·X·e^{jωt}))."""
+    a = np.column_stack([np.cos(W * t_s), -np.sin(W * t_s), np.ones_like(t_s)])
+    coef, *_ = np.linalg.lstsq(a, x, rcond=None)
+    return complex(coef[0], coef[1]) / math.sqrt(2)
+
+
+def test_inductive_component_varies_linearly_with_fault_position() -> None:
+    # Quasi-static induced component (derived; lossless mutual coupling, no reactors): the
+    # open phase sees e = ω·l_m·|I_b + I_c| per metre, l_m = (L0 − L1)/3, and charges through
+    # c_eff = (2C1 + C0)/3 per metre, so I_s,ind = ω·c_eff·e·ℓ·(ℓ/2 − x): linear in x, and
+    # |I(0) − I(ℓ)| = ω·c_eff·e·ℓ². R0 = R1 here so that the mutual impedance is a pure
+    # reactance, as the closed form assumes. Load angle 30° for a heavy load current.
+    line = LineModelData.from_sequence(
+        r1_ohm_per_m=0.02e-3, l1_h_per_m=0.87e-6, c1_f_per_m=C1,
+        r0_ohm_per_m=0.02e-3, l0_h_per_m=2.7e-6, c0_f_per_m=C0, length_m=LENGTH_M,
+    )  # fmt: skip
+    out = {}
+    for frac in (0.0, 0.5, 1.0):
+        spec = spec_with(fault=bolted(frac * LENGTH_M), trip={"A": -1.0})
+        spec = dataclasses.replace(
+            spec, line=line, remote=dataclasses.replace(STIFF, angle_deg=-30.0)
+        )
+        res = simulate_event(spec)
+        i_bc_loc = _phasor(res.t_s, res.i_line_a[0, 1] + res.i_line_a[0, 2])
+        i_bc_rem = _phasor(res.t_s, res.i_line_a[1, 1] + res.i_line_a[1, 2])
+        out[frac] = (_phasor(res.t_s, res.arc_i_a), (i_bc_loc - i_bc_rem) / 2)
+    i0, ih, il = out[0.0][0], out[0.5][0], out[1.0][0]
+    assert abs(i0 + il - 2 * ih) < 0.01 * abs(ih)  # linear in x
+    e_v_per_m = W * (2.7e-6 - 0.87e-6) / 3 * abs(out[0.5][1])
+    expected = W * (2 * C1 + C0) / 3 * e_v_per_m * LENGTH_M**2
+    assert abs(i0 - il) == pytest.approx(expected, rel=0.02)
+    # the mid-line fault sees the capacitive part only, ω(C1 − C0)V·ℓ/3 (Kimbark 1964), with
+    # V the mean healthy-phase voltage along the line: on a short line the linear blend of
+    # the end voltages, of mean magnitude V_ph·cos(δ/2) for a load angle δ (derived)
+    assert abs(ih) == pytest.approx(I_S_CLOSED * math.cos(math.radians(15.0)), rel=0.01)
+
+
+def test_untransposed_line_couples_through_its_capacitance_matrix() -> None:
+    # Untransposed line (derived from the Maxwell capacitance matrix, off-diagonals
+    # negative): with phase k open and bolted, I_s = ω·|Σ_{j≠k} C_kj·V_j|·ℓ; isolated,
+    # V_rec = |Σ_{j≠k} C_kj·V_j| / C_kk. Illustrative flat-line matrix (nF/km).
+    c_nf = np.array([[10.9, -1.9, -0.8], [-1.9, 11.2, -1.9], [-0.8, -1.9, 10.9]])
+    line = dataclasses.replace(LINE, c_f_per_m=c_nf * 1e-12 / 1e3)
+    v = V_PH * np.exp(1j * np.deg2rad([0.0, -120.0, 120.0]))
+    for k, name in enumerate("ABC"):
+        others = [j for j in range(3) if j != k]
+        coupled = abs(sum(c_nf[k, j] * 1e-15 * v[j] for j in others))
+        f = FaultSpec(
+            phase=name, location_m=0.5 * LENGTH_M, inception_s=-1.0, r_fault_ohm=1e-3,
+            permanent=True,
+        )  # fmt: skip
+        spec = dataclasses.replace(spec_with(fault=f, trip={name: -1.0}), line=line)
+        res = simulate_event(spec)
+        assert fundamental_rms(res.t_s, res.arc_i_a) == pytest.approx(
+            W * coupled * LENGTH_M, rel=0.01
+        )
+        spec = dataclasses.replace(spec_with(fault=None, trip={name: -1.0}), line=line)
+        res = simulate_event(spec)
+        v_rec = fundamental_rms(res.t_s, res.v_line_v[0, k])
+        assert v_rec == pytest.approx(coupled / (c_nf[k, k] * 1e-15), rel=0.01)
