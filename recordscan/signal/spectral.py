@@ -20,6 +20,7 @@ __all__ = [
     "fit_beat",
     "harmonic_ratio",
     "harmonic_spectrum",
+    "highpass",
     "thd",
 ]
 
@@ -127,6 +128,8 @@ def harmonic_ratio(
     f_hz: float,
     harmonics: tuple[int, ...] = (3, 5),
     t0_s: float = 0.0,
+    rms_of: np.ndarray | None = None,
+    n_cycles: int = 1,
 ) -> np.ndarray:
     """Sliding one-cycle ratio of selected harmonics to the total RMS.
 
@@ -146,6 +149,11 @@ def harmonic_ratio(
         Harmonic orders to sum; those at or above the Nyquist frequency are dropped.
     t0_s : float
         Instant of the first sample.
+    rms_of : numpy.ndarray, optional
+        Signal whose RMS is the denominator (default ``x``) — e.g. the unfiltered signal
+        when ``x`` was high-pass filtered to keep the fundamental's leakage out of the bins.
+    n_cycles : int
+        Window length in cycles (longer windows lower the noise in the bins).
 
     Returns
     -------
@@ -153,18 +161,34 @@ def harmonic_ratio(
         Ratio per sample (NaN before the first full cycle or where the RMS is zero).
     """
     x = np.asarray(x, dtype=np.float64)
-    length = samples_per_cycle(fs_hz, f_hz)
+    m = max(1, int(n_cycles))
+    length = m * samples_per_cycle(fs_hz, f_hz)
     acc = np.zeros(x.shape[0])
     for h in harmonics:
         if h * f_hz >= 0.45 * fs_hz:
             continue
-        ph = full_cycle_phasor(x, fs_hz=fs_hz, f_hz=f_hz, t0_s=t0_s, harmonic=h)
+        ph = full_cycle_phasor(x, fs_hz=fs_hz, f_hz=f_hz / m, t0_s=t0_s, harmonic=h * m)
         acc = acc + np.abs(ph) ** 2
-    rms = sliding_rms(x, length=length)
+    rms = sliding_rms(x if rms_of is None else np.asarray(rms_of, float), length=length)
     with np.errstate(invalid="ignore", divide="ignore"):
         r = np.sqrt(acc) / rms
     r[~np.isfinite(r)] = np.nan
     return r
+
+
+def highpass(x: np.ndarray, *, fs_hz: float, cutoff_hz: float, order: int = 4) -> np.ndarray:
+    """Zero-phase Butterworth high-pass (forward and backward; gain |H|² of one pass).
+
+    Returns ``x`` unchanged when it is too short for the filter's edge padding.
+    """
+    from scipy.signal import butter, sosfiltfilt
+
+    x = np.asarray(x, dtype=np.float64)
+    sos = butter(order, cutoff_hz, btype="highpass", fs=fs_hz, output="sos")
+    pad = 3 * (2 * sos.shape[0] + 1)
+    if x.shape[0] <= pad:
+        return x.copy()
+    return sosfiltfilt(sos, x)
 
 
 def envelope(x: np.ndarray) -> np.ndarray:

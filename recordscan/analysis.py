@@ -1,0 +1,770 @@
+"""The one orchestrator: a record in, the single-pole-trip event chain out.
+
+:func:`analyse` runs the detectors of :mod:`recordscan.detect` in order — pre-fault state,
+fault inception, pole openings, phase selection and classification, trip, far-end opening,
+reclose and outcome, secondary arc, restrikes, final extinction, recovery voltage, fault
+location, triage — and returns an immutable :class:`Analysis`. Only single-pole trips go down
+the secondary-arc chain; other events are reported as what they are.
+
+:func:`pair` aligns a second terminal's record with the first (timestamps, refined on the
+fault inception seen by both).
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from pathlib import Path
+from types import MappingProxyType
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from recordscan.core.events import Event
+from recordscan.core.record import Record
+from recordscan.core.roles import ARC_CURRENT
+from recordscan.detect._base import Quantities, where
+from recordscan.detect.classify import Classification, classify_event, fault_current_rms
+from recordscan.detect.inception import (
+    PrefaultState,
+    detect_inception,
+    measure_frequency,
+    prefault_state,
+)
+from recordscan.detect.locate import FaultLocation, locate_single_ended, locate_two_ended
+from recordscan.detect.phase_select import FaultSelection, select_phases
+from recordscan.detect.pole_opening import (
+    PoleOpening,
+    detect_pole_openings,
+    detect_trip,
+    infer_remote_opening,
+)
+from recordscan.detect.reclose import RecloseResult, detect_reclose
+from recordscan.detect.recovery import RecoveryVoltage, measure_recovery_voltage
+from recordscan.detect.restrike import detect_restrikes
+from recordscan.detect.secondary_arc import (
+    ExtinctionResult,
+    arc_trace,
+    detect_extinction,
+    with_burning_after,
+)
+from recordscan.detect.triage import Triage, triage
+from recordscan.errors import DetectionError, RecordScanError
+
+if TYPE_CHECKING:  # pragma: no cover
+    from recordscan.physics.line import LineDescription
+
+__all__ = [
+    "SCHEMA_VERSION",
+    "Analysis",
+    "Pairing",
+    "ScanOptions",
+    "analyse",
+    "error_json_dict",
+    "pair",
+]
+
+#: version of the JSON produced by :meth:`Analysis.to_json_dict` (docs/scan-schema.md)
+SCHEMA_VERSION = 1
+
+
+@dataclass(frozen=True)
+class ScanOptions:
+    """Detector settings (defaults suit 50/60 Hz records at 960 Hz – 20 kHz).
+
+    Attributes
+    ----------
+    inception_noise_factor, inception_current_fraction, inception_voltage_fraction : float
+        Fault-inception thresholds (:func:`recordscan.detect.inception.detect_inception`).
+    single_phase_ratio : float
+        Phase selection (:func:`recordscan.detect.phase_select.selection_from_deltas`).
+    quiet_cycles : float
+        How long a phase current must stay interrupted to count as a pole opening.
+    h_on, h_off : float
+        Harmonic-ratio thresholds of the arc signature.
+    level_min : float
+        Recovered open-phase voltage below this fraction of the healthy phases is flagged.
+    excursion_factor : float
+        A recovery is ``|v|`` above this multiple of the local arc-voltage level.
+    min_recovery_cycles : float
+        Shortest recovery counted before a restrike.
+    max_stagger_s : float
+        Longest far-end opening delay searched for.
+    infer_remote : bool
+        Infer the far-end opening from one record.
+    frequency_tolerance_hz : float
+        Beyond this deviation from nominal the DFT windows follow the measured frequency.
+    """
+
+    inception_noise_factor: float = 8.0
+    inception_current_fraction: float = 0.5
+    inception_voltage_fraction: float = 0.08
+    single_phase_ratio: float = 0.25
+    quiet_cycles: float = 0.75
+    h_on: float = 0.15
+    h_off: float = 0.08
+    level_min: float = 0.03
+    excursion_factor: float = 2.0
+    min_recovery_cycles: float = 0.2
+    max_stagger_s: float = 0.3
+    infer_remote: bool = True
+    frequency_tolerance_hz: float = 0.2
+
+
+@dataclass(frozen=True)
+class Pairing:
+    """How a remote terminal's record is aligned with the local one.
+
+    ``t_local = t_remote + offset_s``.
+
+    Attributes
+    ----------
+    remote : Record
+        The remote record.
+    offset_s : float
+        Offset to add to remote times.
+    method : str
+        ``"timestamps refined on fault inception"``, ``"fault inception"`` or
+        ``"timestamps"``.
+    timestamp_offset_s : float or None
+        Offset from the start timestamps alone.
+    warnings : tuple of str
+        Disagreements between timestamps and inception.
+    """
+
+    remote: Record
+    offset_s: float
+    method: str
+    timestamp_offset_s: float | None = None
+    warnings: tuple[str, ...] = ()
+
+
+def pair(local: Record, remote: Record, *, options: ScanOptions | None = None) -> Pairing:
+    """Align ``remote`` to ``local``: by timestamps, refined on the fault inception.
+
+    Parameters
+    ----------
+    local, remote : Record
+        Records of the two terminals of one line.
+    options : ScanOptions, optional
+        Detector settings.
+
+    Returns
+    -------
+    Pairing
+        The alignment.
+
+    Raises
+    ------
+    DetectionError
+        When neither timestamps nor a fault inception in both records can align them.
+    """
+    opts = options or ScanOptions()
+    ts = None
+    if local.start_ns is not None and remote.start_ns is not None:
+        ts = (remote.start_ns - local.start_ns) * 1e-9
+    inc_l = _inception(local, Quantities(local), opts)
+    inc_r = _inception(remote, Quantities(remote), opts)
+    if inc_l is not None and inc_r is not None:
+        by_inc = inc_l.t_s - inc_r.t_s
+        if ts is None:
+            return Pairing(remote, by_inc, "fault inception")
+        warns: tuple[str, ...] = ()
+        if abs(by_inc - ts) > 0.5 / local.frequency_hz:
+            warns = (
+                f"record clocks disagree by {(by_inc - ts) * 1e3:.1f} ms with the fault "
+                "inception; aligned on the inception",
+            )
+        return Pairing(remote, by_inc, "timestamps refined on fault inception", ts, warns)
+    if ts is not None:
+        return Pairing(remote, ts, "timestamps", ts, ("fault inception not seen in both records",))
+    raise DetectionError(
+        f"{where(remote)}: cannot align with {where(local)}: no start timestamps and no fault "
+        "inception seen in both records"
+    )
+
+
+def _inception(record: Record, q: Quantities, opts: ScanOptions) -> Event | None:
+    return detect_inception(
+        record,
+        quantities=q,
+        noise_factor=opts.inception_noise_factor,
+        current_fraction=opts.inception_current_fraction,
+        voltage_fraction=opts.inception_voltage_fraction,
+    )
+
+
+def _frozen(m: Mapping[str, Any]) -> Mapping[str, Any]:
+    return MappingProxyType(dict(m))
+
+
+@dataclass(frozen=True)
+class Analysis:
+    """The analysed event chain of one record (immutable).
+
+    Every instant is seconds from the record's first sample. Attributes not applicable to
+    the event are None (or empty).
+    """
+
+    record: Record = field(repr=False, compare=False)
+    classification: Classification
+    prefault: PrefaultState | None = None
+    inception: Event | None = None
+    selection: FaultSelection | None = None
+    trip: Event | None = None
+    openings: Mapping[str, PoleOpening] = field(default_factory=dict)
+    remote_pole_open: Event | None = None
+    remote_pole_open_source: str | None = None
+    secondary_arc_start_s: float | None = None
+    restrikes: tuple[Event, ...] = ()
+    extinction: ExtinctionResult | None = None
+    recovery: RecoveryVoltage | None = None
+    location: FaultLocation | None = None
+    triage: Triage | None = None
+    reclose: RecloseResult | None = None
+    pairing: Pairing | None = field(default=None, repr=False, compare=False)
+    line_name: str | None = None
+    voltage_kv: float | None = None
+    frequency_hz: float = 0.0
+    warnings: tuple[str, ...] = ()
+    confidence: float = 0.0
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "openings", _frozen(self.openings))
+
+    # ------------------------------------------------------------------ convenience
+    @property
+    def event(self) -> str:
+        """``"single_pole_trip"``, ``"three_pole_trip"``, ``"no_fault"`` or ``"unclassified"``."""
+        return self.classification.event
+
+    @property
+    def faulted_phase(self) -> str | None:
+        """Faulted (opened) phase of a single-pole trip."""
+        return self.classification.faulted_phase
+
+    @property
+    def pole_open(self) -> PoleOpening | None:
+        """Local opening of the faulted phase (single-pole trips)."""
+        p = self.faulted_phase
+        return None if p is None else self.openings.get(p)
+
+    @property
+    def extinction_s(self) -> float | None:
+        """Final extinction, None when censored or not applicable."""
+        return None if self.extinction is None else self.extinction.extinction_s
+
+    @property
+    def reclose_s(self) -> float | None:
+        """Reclose instant."""
+        return None if self.reclose is None else self.reclose.reclose_s
+
+    @property
+    def extinction_margin_s(self) -> float | None:
+        """Reclose instant minus final extinction."""
+        if self.reclose_s is None or self.extinction_s is None:
+            return None
+        return self.reclose_s - self.extinction_s
+
+    def events(self) -> tuple[Event, ...]:
+        """Every detected instant, in time order."""
+        evs: list[Event] = []
+        for e in (self.inception, self.trip, self.remote_pole_open):
+            if e is not None:
+                evs.append(e)
+        evs += [o.event for o in self.openings.values()]
+        evs += list(self.restrikes)
+        if self.extinction is not None and self.extinction.extinction is not None:
+            evs.append(self.extinction.extinction)
+        if self.reclose is not None:
+            evs += [e for e in (self.reclose.reclose, self.reclose.three_pole_trip) if e]
+        return tuple(sorted(evs, key=lambda e: e.t_s))
+
+    # ------------------------------------------------------------------ JSON
+    def to_json_dict(self, *, file: str | None = None, sha256: str | None = None) -> dict[str, Any]:
+        """The record's line of ``recordscan scan --json`` (docs/scan-schema.md, version 1).
+
+        Parameters
+        ----------
+        file : str, optional
+            Path as given (default the record's provenance path).
+        sha256 : str, optional
+            Content hash (default the record's provenance hash).
+
+        Returns
+        -------
+        dict
+            JSON-ready values (NaN is left for the writer to map to null).
+        """
+        import scipy
+
+        from recordscan import __version__
+
+        rec = self.record
+        ext = self.extinction
+        rv = self.recovery
+        tri = self.triage
+        rc = self.reclose
+        po = self.pole_open
+        sa = self.secondary_arc_start_s
+        ext_s = self.extinction_s
+        restrike_v = [
+            float(e.evidence.quantities.get("voltage_v", float("nan"))) for e in self.restrikes
+        ]
+        out: dict[str, Any] = {
+            "schema": SCHEMA_VERSION,
+            "file": file if file is not None else rec.provenance.path,
+            "sha256": sha256 if sha256 is not None else rec.provenance.sha256,
+            "status": "ok",
+            "error": None,
+            "station": rec.station,
+            "device": rec.device,
+            "start": _iso(rec.start_ns),
+            "frequency_hz": float(rec.frequency_hz),
+            "sample_rate_hz": float(rec.sample_rate_hz),
+            "line": self.line_name,
+            "voltage_kv": self.voltage_kv,
+            "event": self.event,
+            "event_detail": self.classification.detail,
+            "faulted_phase": self.faulted_phase,
+            "fault_inception_s": None if self.inception is None else self.inception.t_s,
+            "trip_s": None if self.trip is None else self.trip.t_s,
+            "pole_open_s": None if po is None else po.t_s,
+            "pole_open_source": None if po is None else po.source,
+            "remote_pole_open_s": None
+            if self.remote_pole_open is None
+            else self.remote_pole_open.t_s,
+            "secondary_arc_start_s": sa,
+            "restrike_s": [e.t_s for e in self.restrikes],
+            "restrike_voltage_v": restrike_v,
+            "extinction_s": ext_s,
+            "extinction_censored": bool(ext.censored) if ext is not None else False,
+            "observed_until_s": None if ext is None else ext.observed_until_s,
+            "secondary_arc_duration_s": None if ext_s is None or sa is None else ext_s - sa,
+            "recovery_voltage_rms_v": None if rv is None else rv.rms_v,
+            "recovery_voltage_peak_v": None if rv is None else rv.peak_v,
+            "recovery_voltage_beat_hz": None if rv is None else rv.beat_hz,
+            "recovery_voltage_ratio": None if rv is None else rv.ratio,
+            "secondary_arc_current_rms_a": None if tri is None else tri.secondary_arc_current_rms_a,
+            "secondary_arc_current_source": None
+            if tri is None
+            else tri.secondary_arc_current_source,
+            "primary_fault_current_rms_a": None if tri is None else tri.primary_fault_current_rms_a,
+            "current_ratio": None if tri is None else tri.current_ratio,
+            "fault_location_m": None if self.location is None else self.location.distance_m,
+            "fault_location_pct": None if self.location is None else self.location.distance_pct,
+            "fault_location_error_m": None if self.location is None else self.location.error_m,
+            "reclose_s": self.reclose_s,
+            "outcome": None if rc is None else rc.outcome,
+            "three_pole_trip_s": (
+                None if rc is None or rc.three_pole_trip is None else rc.three_pole_trip.t_s
+            ),
+            "dead_time_s": None if rc is None else rc.dead_time_s,
+            "extinction_margin_s": self.extinction_margin_s,
+            "deionisation_rules": {} if tri is None else dict(tri.deionisation_rules),
+            "confidence": self.confidence,
+            "events": [e.to_dict() for e in self.events()],
+            "warnings": list(self.warnings),
+            "versions": {
+                "recordscan": __version__,
+                "numpy": np.__version__,
+                "scipy": scipy.__version__,
+            },
+            # additions beyond the fixed schema (documented in docs/detection.md)
+            "fault_type": None if self.selection is None else self.selection.label,
+            "remote_pole_open_source": self.remote_pole_open_source,
+            "recovery_voltage_forced_rms_v": None if rv is None else rv.forced_rms_v,
+            "recovery_voltage_free_hz": None if rv is None else rv.free_frequency_hz,
+            "recovery_voltage_thd": None if rv is None else rv.thd,
+            "recovery_voltage_estimate_v": None if rv is None else rv.estimate_rms_v,
+            "fault_location_method": None if self.location is None else self.location.method,
+            "prefault": None if self.prefault is None else self.prefault.to_dict(),
+            "triage": None if tri is None else tri.to_dict(),
+        }
+        return out
+
+
+def error_json_dict(*, file: str, error: str, sha256: str = "") -> dict[str, Any]:
+    """The JSON line of a record that could not be analysed (same keys, values null)."""
+    from recordscan import __version__
+
+    keys = (
+        "station device start frequency_hz sample_rate_hz line voltage_kv event_detail "
+        "faulted_phase fault_inception_s trip_s pole_open_s pole_open_source remote_pole_open_s "
+        "secondary_arc_start_s extinction_s observed_until_s secondary_arc_duration_s "
+        "recovery_voltage_rms_v recovery_voltage_peak_v recovery_voltage_beat_hz "
+        "recovery_voltage_ratio secondary_arc_current_rms_a secondary_arc_current_source "
+        "primary_fault_current_rms_a current_ratio fault_location_m fault_location_pct "
+        "fault_location_error_m reclose_s outcome three_pole_trip_s dead_time_s "
+        "extinction_margin_s"
+    ).split()
+    out: dict[str, Any] = {"schema": SCHEMA_VERSION, "file": file, "sha256": sha256}
+    out.update({"status": "error", "error": error, "event": "unclassified"})
+    out.update(dict.fromkeys(keys))
+    out.update(
+        {
+            "restrike_s": [],
+            "restrike_voltage_v": [],
+            "extinction_censored": False,
+            "deionisation_rules": {},
+            "confidence": 0.0,
+            "events": [],
+            "warnings": [],
+            "versions": {"recordscan": __version__, "numpy": np.__version__},
+        }
+    )
+    return out
+
+
+def _iso(ns: int | None) -> str | None:
+    if ns is None:
+        return None
+    sec, frac = divmod(int(ns), 1_000_000_000)
+    base = _dt.datetime.fromtimestamp(sec, tz=_dt.timezone.utc).strftime("%Y-%m-%dT%H:%M:%S")
+    return f"{base}.{frac:09d}Z"
+
+
+def _load(line: LineDescription | str | Path | None) -> LineDescription | None:
+    if line is None:
+        return None
+    if isinstance(line, (str, Path)):
+        from recordscan.physics.line import load_line
+
+        return load_line(line)
+    return line
+
+
+def analyse(
+    record: Record,
+    *,
+    line: LineDescription | str | Path | None = None,
+    remote: Record | None = None,
+    options: ScanOptions | None = None,
+) -> Analysis:
+    """Analyse one record (optionally with the remote terminal's record and the line data).
+
+    Parameters
+    ----------
+    record : Record
+        The local terminal's record, roles assigned.
+    line : LineDescription or path, optional
+        Line description (enables fault location, recovery-voltage ratio, estimated
+        secondary-arc current and the deionisation rules).
+    remote : Record, optional
+        The other terminal's record of the same event.
+    options : ScanOptions, optional
+        Detector settings.
+
+    Returns
+    -------
+    Analysis
+        The event chain.
+
+    Raises
+    ------
+    DetectionError
+        The record cannot be evaluated (no phase currents or voltages, too short…).
+    RecordScanError
+        The line file cannot be read.
+    """
+    opts = options or ScanOptions()
+    ld = _load(line)
+    warns: list[str] = []
+    q = Quantities(record)
+    inc = _inception(record, q, opts)
+    f_meas = measure_frequency(record, until_s=None if inc is None else inc.t_s)
+    if abs(f_meas - record.frequency_hz) > opts.frequency_tolerance_hz:
+        q = Quantities(record, f_hz=f_meas)
+        warns.append(f"DFT windows follow the measured frequency {f_meas:.3f} Hz")
+        inc = _inception(record, q, opts)
+    kv = None if ld is None else ld.voltage_v / 1e3
+    common = {
+        "record": record,
+        "line_name": None if ld is None else ld.name,
+        "voltage_kv": kv,
+        "frequency_hz": q.f_hz,
+    }
+    if inc is None:
+        pre = _safe_prefault(record, q, None, warns)
+        cls = classify_event(
+            quantities=q, inception=None, selection=None, openings={}, prefault=pre
+        )
+        return Analysis(
+            classification=cls,
+            prefault=pre,
+            warnings=_uniq(warns, pre),
+            confidence=cls.confidence,
+            **common,
+        )
+    pre = _safe_prefault(record, q, inc.t_s, warns)
+    openings = detect_pole_openings(
+        record, after_s=inc.t_s, quantities=q, quiet_cycles=opts.quiet_cycles
+    )
+    first = min((o.t_s for o in openings.values()), default=None)
+    sel = select_phases(
+        record,
+        inception_s=inc.t_s,
+        until_s=first,
+        quantities=q,
+        single_ratio=opts.single_phase_ratio,
+    )
+    cls = classify_event(
+        quantities=q, inception=inc, selection=sel, openings=openings, prefault=pre
+    )
+    trip = detect_trip(record, after_s=inc.t_s - q.cycle_s, quantities=q)
+    p = cls.faulted_phase
+    i_fault = None
+    if sel.phases:
+        i_fault = fault_current_rms(q, sel.phases[0], inception_s=inc.t_s, until_s=first)
+    if cls.event != "single_pole_trip" or p is None:
+        tri = triage(
+            primary_fault_current_rms_a=i_fault,
+            secondary_arc_current_rms_a=None,
+            secondary_arc_current_source=None,
+            dead_time_s=None,
+            voltage_kv=kv,
+        )
+        return Analysis(
+            classification=cls,
+            prefault=pre,
+            inception=inc,
+            selection=sel,
+            trip=trip,
+            openings=openings,
+            triage=tri,
+            warnings=_uniq(warns, pre),
+            confidence=float(min(cls.confidence, inc.confidence)),
+            **common,
+        )
+    local = openings[p]
+    # ---------------------------------------------------------------- far end
+    remote_ev: Event | None = None
+    remote_src: str | None = None
+    pairing: Pairing | None = None
+    rem_q: Quantities | None = None
+    rem_inc: Event | None = None
+    rem_open: PoleOpening | None = None
+    if remote is not None:
+        pairing = pair(record, remote, options=opts)
+        warns += list(pairing.warnings)
+        rem_q = Quantities(remote)
+        rem_inc = _inception(remote, rem_q, opts)
+        if rem_inc is not None:
+            r_open = detect_pole_openings(
+                remote, after_s=rem_inc.t_s, quantities=rem_q, quiet_cycles=opts.quiet_cycles
+            )
+            rem_open = r_open.get(p)
+        if rem_open is not None:
+            e = rem_open.event
+            remote_ev = Event(
+                kind="pole_open_remote",
+                t_s=e.t_s + pairing.offset_s,
+                uncertainty_s=e.uncertainty_s,
+                method=f"{e.method} (remote record, {pairing.method})",
+                confidence=e.confidence,
+                evidence=e.evidence,
+                params={"offset_s": pairing.offset_s},
+                phase=p,
+            )
+            remote_src = "paired record"
+        else:
+            warns.append("the paired record shows no opening of the faulted phase")
+    elif opts.infer_remote and q.has_currents():
+        remote_ev = infer_remote_opening(
+            record,
+            phase=p,
+            local_open_s=local.t_s,
+            quantities=q,
+            max_stagger_s=opts.max_stagger_s,
+        )
+        remote_src = None if remote_ev is None else "inferred"
+    # ---------------------------------------------------------------- reclose
+    load_a = None if pre is None else pre.i_rms_a.get(p)
+    v_ph = None if pre is None else pre.v_rms_v.get(p)
+    rc = detect_reclose(
+        record,
+        phase=p,
+        open_s=local.t_s,
+        fault_current_rms_a=i_fault,
+        load_current_rms_a=load_a,
+        v_phase_rms_v=v_ph,
+        quantities=q,
+    )
+    arc_start = local.t_s if remote_ev is None else max(local.t_s, remote_ev.t_s)
+    until = rc.reclose_s if rc.reclose_s is not None else float(record.t_s[-1])
+    # ---------------------------------------------------------------- secondary arc
+    ext: ExtinctionResult | None = None
+    restrikes: list[Event] = []
+    try:
+        tr = arc_trace(
+            record,
+            phase=p,
+            start_s=arc_start,
+            until_s=until,
+            quantities=q,
+            h_on=opts.h_on,
+            h_off=opts.h_off,
+        )
+        restrikes = detect_restrikes(
+            record,
+            trace=tr,
+            quantities=q,
+            excursion_factor=opts.excursion_factor,
+            min_recovery_cycles=opts.min_recovery_cycles,
+            h_on=opts.h_on,
+        )
+        # the arc burns again after each restrike, even if too briefly for the signature
+        tr = with_burning_after(tr, [q.idx(r.t_s) for r in restrikes], q.idx(until))
+        ext = detect_extinction(
+            record,
+            phase=p,
+            arc_start_s=arc_start,
+            until_s=until,
+            quantities=q,
+            h_on=opts.h_on,
+            h_off=opts.h_off,
+            level_min=opts.level_min,
+            trace=tr,
+        )
+        warns += list(ext.warnings)
+        if ext.extinction_s is not None:
+            restrikes = [r for r in restrikes if r.t_s < ext.extinction_s]
+    except DetectionError as exc:
+        if q.values(ARC_CURRENT) is None:
+            warns.append(str(exc))
+        else:
+            ext = detect_extinction(
+                record, phase=p, arc_start_s=arc_start, until_s=until, quantities=q
+            )
+    # ---------------------------------------------------------------- location
+    loc: FaultLocation | None = None
+    if ld is not None:
+        z1 = complex(ld.constants.r1_ohm_per_m, ld.constants.x1_ohm_per_m) * ld.length_m
+        z0 = complex(ld.constants.r0_ohm_per_m, ld.constants.x0_ohm_per_m) * ld.length_m
+        try:
+            if remote is not None and rem_q is not None and rem_inc is not None:
+                loc = locate_two_ended(
+                    record,
+                    remote,
+                    inception_local_s=inc.t_s,
+                    inception_remote_s=rem_inc.t_s,
+                    z1_ohm=z1,
+                    length_m=ld.length_m,
+                    clear_local_s=local.t_s,
+                    clear_remote_s=None if rem_open is None else rem_open.t_s,
+                    q_local=q,
+                    q_remote=rem_q,
+                )
+            if loc is None:
+                loc = locate_single_ended(
+                    record,
+                    phase=p,
+                    inception_s=inc.t_s,
+                    clear_s=local.t_s,
+                    z1_ohm=z1,
+                    z0_ohm=z0,
+                    length_m=ld.length_m,
+                    quantities=q,
+                )
+        except DetectionError as exc:
+            warns.append(str(exc))
+        if loc is not None and not -0.05 <= loc.distance_pct / 100 <= 1.05:
+            warns.append(f"fault location {loc.distance_pct:.0f} % lies off the line; ignored")
+            loc = None
+    # ---------------------------------------------------------------- line estimate
+    est_v = est_a = None
+    if ld is not None:
+        try:
+            from recordscan.physics.coupling import open_phase_coupling
+
+            cp = open_phase_coupling(
+                ld,
+                faulted_phase=p,
+                fault_at_m=None if loc is None else float(np.clip(loc.distance_m, 0, ld.length_m)),
+                load_current_a=float(load_a or 0.0),
+            )
+            est_v, est_a = cp.recovery_voltage_rms_v, cp.secondary_arc_current_rms_a
+        except RecordScanError as exc:
+            warns.append(f"line estimate unavailable: {exc}")
+    rv = None
+    if ext is not None and ext.extinction_s is not None:
+        rv = measure_recovery_voltage(
+            record,
+            phase=p,
+            from_s=ext.extinction_s,
+            until_s=until,
+            quantities=q,
+            estimate_rms_v=est_v,
+        )
+    # ---------------------------------------------------------------- triage
+    i_arc, src = _arc_current(record, q, arc_start, ext, until)
+    if i_arc is None and est_a is not None:
+        i_arc, src = est_a, "estimated"
+    tri = triage(
+        primary_fault_current_rms_a=i_fault,
+        secondary_arc_current_rms_a=i_arc,
+        secondary_arc_current_source=src,
+        dead_time_s=rc.dead_time_s,
+        voltage_kv=kv,
+    )
+    confs = [cls.confidence, inc.confidence, local.event.confidence]
+    if ext is not None and ext.extinction is not None:
+        confs.append(ext.extinction.confidence)
+    if ext is None:
+        confs.append(0.3)
+    return Analysis(
+        classification=cls,
+        prefault=pre,
+        inception=inc,
+        selection=sel,
+        trip=trip,
+        openings=openings,
+        remote_pole_open=remote_ev,
+        remote_pole_open_source=remote_src,
+        secondary_arc_start_s=arc_start,
+        restrikes=tuple(restrikes),
+        extinction=ext,
+        recovery=rv,
+        location=loc,
+        triage=tri,
+        reclose=rc,
+        pairing=pairing,
+        warnings=_uniq(warns, pre),
+        confidence=float(np.prod(confs) ** (1.0 / len(confs))),
+        **common,
+    )
+
+
+def _arc_current(
+    record: Record,
+    q: Quantities,
+    start_s: float,
+    ext: ExtinctionResult | None,
+    until_s: float,
+) -> tuple[float | None, str | None]:
+    """RMS of a measured arc current over the secondary-arc period."""
+    i = q.values(ARC_CURRENT)
+    if i is None:
+        return None, None
+    end = ext.extinction_s if ext is not None and ext.extinction_s is not None else until_s
+    a, b = q.idx(start_s + q.cycle_s), q.idx(end)
+    if b - a < 2:
+        return None, None
+    x = np.nan_to_num(i[a:b])
+    return float(np.sqrt(np.mean(x * x))), "measured"
+
+
+def _safe_prefault(
+    record: Record, q: Quantities, before_s: float | None, warns: list[str]
+) -> PrefaultState | None:
+    try:
+        return prefault_state(record, before_s=before_s, quantities=q)
+    except DetectionError as exc:
+        warns.append(str(exc))
+        return None
+
+
+def _uniq(warns: list[str], pre: PrefaultState | None) -> tuple[str, ...]:
+    allw = list(pre.warnings if pre else ()) + warns
+    return tuple(dict.fromkeys(allw))

@@ -1,0 +1,242 @@
+"""Shared per-record quantities for the detectors (computed once, segment by segment).
+
+:class:`Quantities` wraps a :class:`~recordscan.core.record.Record` and computes, on demand
+and once, the signal-layer arrays the detectors need (phasors, RMS, superimposed values,
+harmonic ratio). Every array has the record's full length; each uniform segment is processed
+on its own, so the first cycle after a gap is NaN and nothing is interpolated across a gap.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+
+import numpy as np
+
+from recordscan.core.record import Record, Segment
+from recordscan.core.roles import I_LINE, PHASES, POLE_CLOSED, V_LINE
+from recordscan.errors import DetectionError
+from recordscan.signal.charfunc import robust_scale
+from recordscan.signal.phasor import full_cycle_phasor, sliding_rms
+from recordscan.signal.sequence import superimposed
+from recordscan.signal.spectral import harmonic_ratio, highpass
+
+__all__ = ["HARMONICS", "Quantities", "where"]
+
+#: harmonic orders of the arc signature (those below 0.45·fs are used)
+HARMONICS: tuple[int, ...] = (3, 5, 7)
+
+
+def where(record: Record) -> str:
+    """Name of the record for messages."""
+    return record.provenance.path or record.station or "record"
+
+
+class Quantities:
+    """Lazily computed, cached signal quantities of one record.
+
+    Parameters
+    ----------
+    record : Record
+        The record (roles assigned).
+    f_hz : float, optional
+        Frequency of the DFT windows (default the record's nominal frequency).
+    """
+
+    def __init__(self, record: Record, *, f_hz: float | None = None) -> None:
+        if record.n_samples < 4:
+            raise DetectionError(f"{where(record)}: record holds fewer than 4 samples")
+        self.record = record
+        self.f_hz = float(f_hz or record.frequency_hz or 0.0)
+        if not self.f_hz > 0:
+            raise DetectionError(
+                f"{where(record)}: nominal frequency unknown; set the line frequency in the cfg"
+            )
+        self.cycle_s = 1.0 / self.f_hz
+        self.segments: tuple[Segment, ...] = tuple(
+            s for s in record.segments if s.rate_hz > 0 and s.n_samples > 1
+        )
+        if not self.segments:
+            raise DetectionError(f"{where(record)}: no uniformly sampled segment to analyse")
+        self._seg_id = np.zeros(record.n_samples, dtype=np.int64) - 1
+        for k, s in enumerate(self.segments):
+            self._seg_id[s.start_idx : s.stop_idx] = k
+        self._cache: dict[tuple[str, str], np.ndarray] = {}
+
+    # ------------------------------------------------------------------ time helpers
+    @property
+    def t_s(self) -> np.ndarray:
+        """The record's time axis."""
+        return self.record.t_s
+
+    def idx(self, t_s: float) -> int:
+        """Index of the first sample at or after ``t_s`` (clipped to the record)."""
+        i = int(np.searchsorted(self.record.t_s, t_s - 1e-12, side="left"))
+        return min(max(i, 0), self.record.n_samples - 1)
+
+    def segment_at(self, idx: int) -> Segment:
+        """The uniform segment holding sample ``idx`` (the nearest one if in none)."""
+        k = int(self._seg_id[min(max(idx, 0), self.record.n_samples - 1)])
+        if k < 0:
+            mids = [abs((s.start_idx + s.stop_idx) / 2 - idx) for s in self.segments]
+            k = int(np.argmin(mids))
+        return self.segments[k]
+
+    def n_cycle(self, idx: int) -> float:
+        """Samples per cycle at sample ``idx``."""
+        return self.segment_at(idx).rate_hz / self.f_hz
+
+    def seg_end(self, idx: int) -> int:
+        """Exclusive end index of the segment holding ``idx``."""
+        return self.segment_at(idx).stop_idx
+
+    # ------------------------------------------------------------------ channels
+    def values(self, role: str) -> np.ndarray | None:
+        """Samples of the analog channel with ``role`` or None."""
+        ch = self.record.analog_by_role(role)
+        return None if ch is None else ch.values
+
+    def status(self, role: str) -> np.ndarray | None:
+        """Samples of the digital channel with ``role`` or None."""
+        ch = self.record.digital_by_role(role)
+        return None if ch is None else ch.values
+
+    def channel_name(self, role: str) -> str:
+        """Name of the channel with ``role`` ('' if none)."""
+        ch = self.record.analog_by_role(role) or self.record.digital_by_role(role)
+        return "" if ch is None else ch.name
+
+    def has_currents(self) -> bool:
+        """True when all three phase currents are recorded."""
+        return all(self.values(I_LINE[p]) is not None for p in PHASES)
+
+    def has_voltages(self) -> bool:
+        """True when all three line-side voltages are recorded."""
+        return all(self.values(V_LINE[p]) is not None for p in PHASES)
+
+    def has_pole_status(self) -> bool:
+        """True when all three pole-closed status channels are recorded."""
+        return all(self.status(POLE_CLOSED[p]) is not None for p in PHASES)
+
+    # ------------------------------------------------------------------ per-segment maps
+    def _per_segment(
+        self, x: np.ndarray, fn: Callable[[np.ndarray, float, float], np.ndarray], dtype: type
+    ) -> np.ndarray:
+        out = np.full(x.shape[0], np.nan, dtype=dtype)
+        for s in self.segments:
+            part = x[s.start_idx : s.stop_idx]
+            if part.shape[0] < 2:
+                continue
+            out[s.start_idx : s.stop_idx] = fn(part, s.rate_hz, float(self.t_s[s.start_idx]))
+        return out
+
+    def _cached(self, role: str, kind: str, make: Callable[[np.ndarray], np.ndarray]):
+        key = (role, kind)
+        if key not in self._cache:
+            x = self.values(role)
+            if x is None:
+                raise DetectionError(f"{where(self.record)}: no channel has role {role}")
+            arr = make(np.nan_to_num(x))
+            arr.setflags(write=False)
+            self._cache[key] = arr
+        return self._cache[key]
+
+    def phasor(self, role: str) -> np.ndarray:
+        """Sliding full-cycle phasor (RMS, absolute-time reference) of ``role``."""
+        f = self.f_hz
+
+        def make(x: np.ndarray) -> np.ndarray:
+            def one(p: np.ndarray, fs: float, t0: float) -> np.ndarray:
+                if p.shape[0] < fs / f + 1:
+                    return np.full(p.shape[0], np.nan, dtype=complex)
+                return full_cycle_phasor(p, fs_hz=fs, f_hz=f, t0_s=t0)
+
+            return self._per_segment(x, one, np.complex128)
+
+        return self._cached(role, "phasor", make)
+
+    def magnitude(self, role: str) -> np.ndarray:
+        """Magnitude of :meth:`phasor`."""
+        return np.abs(self.phasor(role))
+
+    def rms(self, role: str) -> np.ndarray:
+        """Sliding one-cycle RMS of ``role``."""
+        f = self.f_hz
+
+        def make(x: np.ndarray) -> np.ndarray:
+            def one(p: np.ndarray, fs: float, t0: float) -> np.ndarray:
+                if p.shape[0] < fs / f + 1:
+                    return np.full(p.shape[0], np.nan)
+                return sliding_rms(p, length=fs / f)
+
+            return self._per_segment(x, one, np.float64)
+
+        return self._cached(role, "rms", make)
+
+    def delta(self, role: str) -> np.ndarray:
+        """Superimposed (one-cycle delta) samples of ``role``."""
+        f = self.f_hz
+
+        def make(x: np.ndarray) -> np.ndarray:
+            def one(p: np.ndarray, fs: float, t0: float) -> np.ndarray:
+                if p.shape[0] < fs / f + 2:
+                    return np.full(p.shape[0], np.nan)
+                return superimposed(p, length=fs / f)
+
+            return self._per_segment(x, one, np.float64)
+
+        return self._cached(role, "delta", make)
+
+    def noise(self, role: str) -> float:
+        """Robust noise σ of ``role`` from its one-cycle delta over the record's second cycle.
+
+        In steady state the delta holds only noise, ``√2·σ`` for white noise.
+        """
+        key = (role, "noise")
+        if key not in self._cache:
+            seg = self.segments[0]
+            n = seg.rate_hz / self.f_hz
+            lo = seg.start_idx + int(np.ceil(n)) + 1
+            hi = min(seg.start_idx + int(np.ceil(2 * n)), seg.stop_idx)
+            d = self.delta(role)[lo:hi]
+            self._cache[key] = np.array(robust_scale(d) / np.sqrt(2.0))
+        return float(self._cache[key])
+
+    def hratio_cycles(self, rate_hz: float) -> int:
+        """Window of the harmonic ratio in cycles: 2 below 40 samples per cycle, else 1."""
+        return 2 if rate_hz / self.f_hz < 40 else 1
+
+    def hratio_noise(self, role: str, idx: int) -> float:
+        """Expected noise power in the harmonic bins of :meth:`hratio` at sample ``idx``.
+
+        White noise σ gives ``E|X_h|² = 2σ²/L`` per RMS-scaled bin of an ``L``-sample window
+        (derived), summed over the harmonics below 0.45·fs.
+        """
+        fs = self.segment_at(idx).rate_hz
+        length = self.hratio_cycles(fs) * fs / self.f_hz
+        n_h = sum(1 for h in HARMONICS if h * self.f_hz < 0.45 * fs)
+        return n_h * 2.0 * self.noise(role) ** 2 / length
+
+    def hratio(self, role: str) -> np.ndarray:
+        """Sliding one-cycle ratio of harmonics 3, 5 (7 when sampled) to the RMS of ``role``."""
+        f = self.f_hz
+
+        def make(x: np.ndarray) -> np.ndarray:
+            def one(p: np.ndarray, fs: float, t0: float) -> np.ndarray:
+                if p.shape[0] < fs / f + 1:
+                    return np.full(p.shape[0], np.nan)
+                # the fundamental and a free (beat) component near it are filtered out first
+                # so that their leakage into the harmonic bins cannot mimic an arc
+                hp = highpass(p, fs_hz=fs, cutoff_hz=2.0 * f) if fs > 5.0 * f else p
+                return harmonic_ratio(
+                    hp,
+                    fs_hz=fs,
+                    f_hz=f,
+                    harmonics=HARMONICS,
+                    t0_s=t0,
+                    rms_of=p,
+                    n_cycles=self.hratio_cycles(fs),
+                )
+
+            return self._per_segment(x, one, np.float64)
+
+        return self._cached(role, "hratio", make)

@@ -1,0 +1,293 @@
+"""Trip command and pole opening per phase; far-end opening inferred from one end.
+
+A pole clears the primary arc at a current zero, after which the phase current at the breaker
+stays at zero. Where pole-status channels exist their change is reported beside it with the
+lag of the auxiliary contact (the contact follows the main contacts by a few ms — common
+practice). With one end recorded, the far end's opening of the faulted phase shows as a
+second disturbance of the healthy-phase currents after the local opening.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from recordscan.core.events import Event, Evidence
+from recordscan.core.record import Record
+from recordscan.core.roles import I_LINE, PHASES, POLE_CLOSED, TRIP, TRIP_3P
+from recordscan.detect._base import Quantities
+from recordscan.signal.onset import first_sustained, last_crossing_before
+
+__all__ = [
+    "PoleOpening",
+    "current_quiet_threshold",
+    "detect_pole_openings",
+    "detect_trip",
+    "infer_remote_opening",
+]
+
+
+@dataclass(frozen=True)
+class PoleOpening:
+    """Opening of one pole at the recorded terminal.
+
+    Attributes
+    ----------
+    phase : str
+        Canonical phase.
+    event : Event
+        ``kind="pole_open"``; ``t_s`` is the instant the primary arc was cleared.
+    source : str
+        ``"current_zero"`` or ``"digital"``.
+    digital_t_s : float or None
+        Instant the pole-status channel changed (None without one).
+    aux_lag_s : float or None
+        ``digital_t_s − current-zero instant`` when both exist.
+    """
+
+    phase: str
+    event: Event
+    source: str
+    digital_t_s: float | None = None
+    aux_lag_s: float | None = None
+
+    @property
+    def t_s(self) -> float:
+        """Instant of the opening."""
+        return self.event.t_s
+
+
+def _edge(values: np.ndarray, t_s: np.ndarray, *, start: int, rising: bool) -> float | None:
+    v = np.asarray(values, dtype=bool)[start:]
+    if v.size < 2:
+        return None
+    d = np.diff(v.view(np.int8))
+    hits = np.flatnonzero(d == (1 if rising else -1))
+    if hits.size == 0:
+        return None
+    return float(t_s[start + hits[0] + 1])
+
+
+def detect_trip(
+    record: Record, *, after_s: float, quantities: Quantities | None = None
+) -> Event | None:
+    """First trip command (per-phase or three-pole) asserted at or after ``after_s``.
+
+    Returns None when no trip channel is recorded or none asserts.
+    """
+    q = quantities or Quantities(record)
+    start = max(q.idx(after_s) - 1, 0)
+    found: list[tuple[float, str, str | None]] = []
+    for role, ph in [*((TRIP[p], p) for p in PHASES), (TRIP_3P, None)]:
+        v = q.status(role)
+        if v is None:
+            continue
+        if v[start]:
+            continue
+        t = _edge(v, record.t_s, start=start, rising=True)
+        if t is not None:
+            found.append((t, role, ph))
+    if not found:
+        return None
+    t, role, ph = min(found)
+    phases = sorted({p for tt, _, p in found if p and tt - t < 0.01})
+    return Event(
+        kind="trip",
+        t_s=t,
+        uncertainty_s=0.5 / record.sample_rate_hz,
+        method="digital channel",
+        confidence=1.0,
+        evidence=Evidence(
+            summary=f"{role} asserted at {t * 1e3:.2f} ms",
+            quantities={"three_pole": role == TRIP_3P},
+            channels=(q.channel_name(role),),
+        ),
+        phase=ph if len(phases) <= 1 else None,
+    )
+
+
+def current_quiet_threshold(
+    i: np.ndarray, *, start: int, n_cycle: float, sigma: float, fraction: float = 0.04
+) -> tuple[float, float]:
+    """Threshold under which a phase current counts as interrupted, and the fault peak.
+
+    ``max(fraction·peak, 8·σ)`` with ``peak`` the largest ``|i|`` in the three cycles from
+    ``start`` and σ the current's noise (:meth:`Quantities.noise`).
+    """
+    seg = np.nan_to_num(i[start : start + int(3 * n_cycle) + 1])
+    peak = float(np.max(np.abs(seg))) if seg.size else 0.0
+    return max(fraction * peak, 8.0 * sigma, 1e-9), peak
+
+
+def _current_zero_opening(
+    q: Quantities, phase: str, *, after_idx: int, quiet_cycles: float
+) -> tuple[int, float] | None:
+    i = q.values(I_LINE[phase])
+    if i is None:
+        return None
+    n = q.n_cycle(after_idx)
+    thr, _ = current_quiet_threshold(i, start=after_idx, n_cycle=n, sigma=q.noise(I_LINE[phase]))
+    quiet = np.abs(np.nan_to_num(i)) < thr
+    quiet[:after_idx] = False
+    k = first_sustained(quiet, n_hold=max(3, round(quiet_cycles * n)), start=after_idx)
+    if k is None or k <= after_idx:
+        # never interrupted, or already quiet: it carried no current to interrupt
+        return None
+    return k, thr
+
+
+def detect_pole_openings(
+    record: Record,
+    *,
+    after_s: float,
+    quantities: Quantities | None = None,
+    quiet_cycles: float = 0.75,
+) -> dict[str, PoleOpening]:
+    """First opening of each pole at or after ``after_s`` (normally the fault inception).
+
+    From the phase current (the first run of at least ``quiet_cycles`` cycles below the
+    interruption threshold; its first sample is the current zero) when the current is
+    recorded, else from the pole-status channel. Phases that do not open are absent.
+
+    Parameters
+    ----------
+    record : Record
+        The record.
+    after_s : float
+        Search start.
+    quantities : Quantities, optional
+        Shared computed quantities.
+    quiet_cycles : float
+        How long the current must stay interrupted.
+
+    Returns
+    -------
+    dict
+        Phase → :class:`PoleOpening`.
+    """
+    q = quantities or Quantities(record)
+    a = q.idx(after_s)
+    out: dict[str, PoleOpening] = {}
+    for p in PHASES:
+        st = q.status(POLE_CLOSED[p])
+        t_dig = None
+        if st is not None:
+            t_dig = _edge(st, record.t_s, start=max(a - int(q.n_cycle(a)), 0), rising=False)
+        cz = _current_zero_opening(q, p, after_idx=a, quiet_cycles=quiet_cycles)
+        if cz is not None:
+            k, thr = cz
+            dt = 1.0 / q.segment_at(k).rate_hz
+            t = float(record.t_s[k]) - 0.5 * dt
+            lag = None if t_dig is None else t_dig - t
+            if lag is not None and abs(lag) > 5 * q.cycle_s:
+                lag = None  # the status change belongs to another operation
+            summary = f"phase {p} current stayed below {thr:.3g} A from {t * 1e3:.2f} ms"
+            if lag is not None:
+                summary += f"; pole status changed {lag * 1e3:+.1f} ms later (auxiliary contact)"
+            ev = Event(
+                kind="pole_open",
+                t_s=t,
+                uncertainty_s=dt,
+                method="final current zero",
+                confidence=0.95,
+                evidence=Evidence(
+                    summary=summary,
+                    quantities={"threshold_a": thr, "aux_lag_s": lag},
+                    channels=(q.channel_name(I_LINE[p]),),
+                ),
+                params={"quiet_cycles": quiet_cycles},
+                phase=p,
+            )
+            out[p] = PoleOpening(p, ev, "current_zero", t_dig, lag)
+        elif t_dig is not None:
+            ev = Event(
+                kind="pole_open",
+                t_s=t_dig,
+                uncertainty_s=0.25 * q.cycle_s,
+                method="pole status channel",
+                confidence=0.8,
+                evidence=Evidence(
+                    summary=(
+                        f"pole {p} status opened at {t_dig * 1e3:.2f} ms (auxiliary contact; "
+                        "the main contacts clear at a current zero a few ms earlier)"
+                    ),
+                    channels=(q.channel_name(POLE_CLOSED[p]),),
+                ),
+                phase=p,
+            )
+            out[p] = PoleOpening(p, ev, "digital", t_dig, None)
+    return out
+
+
+def infer_remote_opening(
+    record: Record,
+    *,
+    phase: str,
+    local_open_s: float,
+    quantities: Quantities | None = None,
+    max_stagger_s: float = 0.3,
+    noise_factor: float = 8.0,
+    fraction: float = 0.03,
+) -> Event | None:
+    """Infer the far end's opening of ``phase`` from the healthy-phase currents.
+
+    After the local pole opens, the healthy-phase currents settle within a cycle; when the far
+    end then opens, the fault infeed stops and the one-cycle delta of the healthy-phase
+    currents rises again. The first such rise between one cycle and ``max_stagger_s`` after
+    the local opening is taken.
+
+    Returns
+    -------
+    Event or None
+        ``kind="pole_open_remote"``; None when no second disturbance is found (the far end
+        opened within about a cycle of the local end, or before it).
+    """
+    q = quantities or Quantities(record)
+    k0 = q.idx(local_open_s)
+    n = q.n_cycle(k0)
+    lo = k0 + int(np.ceil(1.15 * n))
+    hi = min(q.idx(local_open_s + max_stagger_s), q.seg_end(k0))
+    if hi - lo < 2:
+        return None
+    best: tuple[int, int, str, float] | None = None
+    for p in PHASES:
+        if p == phase or q.values(I_LINE[p]) is None:
+            continue
+        d = q.delta(I_LINE[p])
+        mag = q.magnitude(I_LINE[p])
+        sigma = q.noise(I_LINE[p])
+        level = float(np.nanmedian(mag[lo:hi])) if np.any(np.isfinite(mag[lo:hi])) else 0.0
+        thr = max(noise_factor * sigma, fraction * np.sqrt(2) * level, 1e-9)
+        with np.errstate(invalid="ignore"):
+            mask = np.abs(d) > thr
+        mask[:lo] = False
+        mask[hi:] = False
+        cross = first_sustained(mask, n_hold=max(2, round(n / 8)), start=lo)
+        if cross is None:
+            continue
+        onset = max(last_crossing_before(np.abs(d), cross, level=thr / 3), lo)
+        ratio = float(np.nanmax(np.abs(d[cross : cross + max(2, round(n / 8))])) / thr)
+        if best is None or onset < best[0]:
+            best = (onset, cross, p, ratio)
+    if best is None:
+        return None
+    onset, _, p, ratio = best
+    t = float(record.t_s[onset])
+    return Event(
+        kind="pole_open_remote",
+        t_s=t,
+        uncertainty_s=0.25 * q.cycle_s,
+        method="healthy-phase current disturbance after the local opening",
+        confidence=float(min(0.9, 0.4 + 0.1 * ratio)),
+        evidence=Evidence(
+            summary=(
+                f"phase {p} current changed again {(t - local_open_s) * 1e3:.1f} ms after the "
+                f"local opening of phase {phase}: far end taken as open"
+            ),
+            quantities={"stagger_s": t - local_open_s, "threshold_ratio": ratio},
+            channels=(q.channel_name(I_LINE[p]),),
+        ),
+        params={"max_stagger_s": max_stagger_s, "noise_factor": noise_factor},
+        phase=phase,
+    )

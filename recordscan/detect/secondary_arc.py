@@ -1,0 +1,506 @@
+"""Secondary-arc period and final extinction on the open phase.
+
+While the secondary arc burns, the line-side voltage of the open phase is essentially the arc
+voltage: square-wave-like (an ideal square wave has odd harmonics 1/k and THD 48.34 %,
+derived from its Fourier series), a few per cent of the phase voltage. Once the arc is extinct
+the open phase carries the recovery voltage coupled from the healthy phases: nearly
+sinusoidal, usually much larger (uncompensated lines: (C1 − C0)/(2·C1 + C0) ≈ 15 % of the phase
+voltage, a derived circuit result), beating on shunt-compensated lines.
+
+The detector combines three cues:
+
+1. a *harmonic signature* — the one-cycle ratio ``H`` of harmonics 3, 5 and 7 to the RMS
+   (:func:`recordscan.signal.spectral.harmonic_ratio`), with two thresholds (hysteresis) so
+   that noise, quantisation and CVT transients (low-frequency, not odd harmonics) do not
+   flip the state;
+2. the *level* of the open-phase fundamental relative to the healthy-phase voltage — a
+   recovered phase whose voltage stays below ``level_min`` is flagged (bolted fault, or a
+   very well compensated line);
+3. a *sample-level refinement*: a sinusoid-plus-drift model of the recovery voltage is fitted
+   just after the coarse instant and extrapolated backwards; the extinction is the first
+   sample after the last one that departs from it by more than the arc-voltage scale — the
+   instant the square wave stopped flipping.
+
+The final extinction is the end of the last burning stretch, provided the phase stays clear
+until the end of the observation (reclose or record end); otherwise the result is censored.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from dataclasses import dataclass
+
+import numpy as np
+
+from recordscan.core.events import Event, Evidence
+from recordscan.core.record import Record
+from recordscan.core.roles import ARC_CURRENT, PHASES, V_LINE
+from recordscan.detect._base import Quantities, where
+from recordscan.errors import DetectionError
+from recordscan.signal.charfunc import robust_scale
+from recordscan.signal.onset import hysteresis_state, runs
+
+__all__ = [
+    "ArcTrace",
+    "ExtinctionResult",
+    "arc_trace",
+    "detect_extinction",
+    "with_burning_after",
+]
+
+
+@dataclass(frozen=True)
+class ArcTrace:
+    """The open phase's arc state between the arc start and the end of the observation.
+
+    Attributes
+    ----------
+    phase : str
+        Open phase.
+    start_idx, stop_idx : int
+        Sample range evaluated (``stop_idx`` exclusive).
+    hratio : numpy.ndarray
+        One-cycle harmonic ratio per sample of the range.
+    level_pu : numpy.ndarray
+        Open-phase fundamental relative to the healthy-phase voltage.
+    burning : numpy.ndarray
+        Arc-burning state per sample (short blips removed).
+    arc_amplitude_v : float or None
+        Typical peak of the arc voltage (None if it never burned).
+    n_cycle : float
+        Samples per cycle.
+    """
+
+    phase: str
+    start_idx: int
+    stop_idx: int
+    hratio: np.ndarray
+    level_pu: np.ndarray
+    burning: np.ndarray
+    arc_amplitude_v: float | None
+    n_cycle: float
+
+
+@dataclass(frozen=True)
+class ExtinctionResult:
+    """Final extinction of the secondary arc.
+
+    Attributes
+    ----------
+    extinction : Event or None
+        ``kind="extinction"``; None when censored.
+    censored : bool
+        True when the arc (or the fault) outlived the observation.
+    observed_until_s : float
+        End of the observation (reclose or record end).
+    arc_start_s : float
+        Start of the secondary arc.
+    burning_intervals : tuple of (float, float)
+        Stretches in which the arc burned (s).
+    arc_voltage_peak_v : float or None
+        Typical arc-voltage peak.
+    warnings : tuple of str
+        Degraded evidence.
+    """
+
+    extinction: Event | None
+    censored: bool
+    observed_until_s: float
+    arc_start_s: float
+    burning_intervals: tuple[tuple[float, float], ...] = ()
+    arc_voltage_peak_v: float | None = None
+    warnings: tuple[str, ...] = ()
+
+    @property
+    def extinction_s(self) -> float | None:
+        """Instant of the final extinction, None when censored or not found."""
+        return None if self.extinction is None else self.extinction.t_s
+
+
+def _open_voltage_role(record: Record, phase: str) -> str:
+    role = V_LINE[phase]
+    if record.analog_by_role(role) is None:
+        raise DetectionError(
+            f"{where(record)}: the line-side voltage of the open phase ({role}) is needed to "
+            "follow the secondary arc; a bus-side VT cannot see the open phase"
+        )
+    return role
+
+
+def arc_trace(
+    record: Record,
+    *,
+    phase: str,
+    start_s: float,
+    until_s: float,
+    quantities: Quantities | None = None,
+    h_on: float = 0.15,
+    h_off: float = 0.08,
+    min_burn_cycles: float = 1.0,
+    significance: float = 2.0,
+) -> ArcTrace:
+    """Compute the arc-burning state of the open phase over ``[start_s + 1 cycle, until_s)``.
+
+    Parameters
+    ----------
+    record : Record
+        The record.
+    phase : str
+        Open phase.
+    start_s, until_s : float
+        Secondary arc start and end of the observation.
+    quantities : Quantities, optional
+        Shared computed quantities.
+    h_on, h_off : float
+        Harmonic-ratio thresholds: burning once ``H ≥ h_on``, clear once ``H < h_off``
+        (an ideal square wave gives 0.374 with harmonics 3, 5, 7; a sinusoid 0).
+    min_burn_cycles : float
+        Burning stretches shorter than this are blips and are ignored.
+    significance : float
+        The harmonic power must exceed this multiple of the expected noise power in the
+        bins to count as an arc signature.
+
+    Returns
+    -------
+    ArcTrace
+        The per-sample state.
+    """
+    q = quantities or Quantities(record)
+    role = _open_voltage_role(record, phase)
+    k0 = q.idx(start_s)
+    n = q.n_cycle(k0)
+    a = min(k0 + int(np.ceil(n)), record.n_samples)
+    b = max(min(q.idx(until_s), record.n_samples), a)
+    if until_s >= record.t_s[-1]:
+        b = record.n_samples
+    h_raw = np.asarray(q.hratio(role)[a:b])
+    rms = q.rms(role)[a:b]
+    # remove the expected noise power from the harmonic bins; demand significance over it
+    p_noise = q.hratio_noise(role, a)
+    with np.errstate(invalid="ignore"):
+        p_h = (h_raw * rms) ** 2
+        h = np.sqrt(np.maximum(p_h - p_noise, 0.0)) / np.sqrt(np.maximum(rms**2 - p_noise, 1e-30))
+        h = np.where(p_h > significance * p_noise, h, np.minimum(h, 0.5 * h_off))
+    h[~np.isfinite(h_raw)] = np.nan
+    mag = q.magnitude(role)[a:b]
+    others = [
+        q.magnitude(V_LINE[p])[a:b]
+        for p in PHASES
+        if p != phase and q.values(V_LINE[p]) is not None
+    ]
+    if others:
+        ref = np.nanmean(np.vstack(others), axis=0)
+    else:
+        ref = np.full(b - a, np.nan)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        level = mag / ref
+    burning = hysteresis_state(h, on=h_on, off=h_off)
+    burning &= np.isfinite(h)
+    s, e = runs(burning)
+    for si, ei in zip(s, e, strict=True):
+        if ei - si < min_burn_cycles * n:
+            burning[si:ei] = False
+    amp = None
+    if np.any(burning):
+        v = np.abs(np.nan_to_num(q.values(role)[a:b]))
+        amp = float(np.percentile(v[burning], 90))
+    return ArcTrace(phase, a, b, h, level, burning, amp, n)
+
+
+def with_burning_after(trace: ArcTrace, restrike_idx: list[int], stop_idx: int) -> ArcTrace:
+    """Return the trace with the arc marked burning for half a cycle after each restrike.
+
+    A restrike means the arc burns again, even when it goes out too soon for the one- or
+    two-cycle harmonic window to show it; the final extinction cannot precede it.
+    """
+    if not restrike_idx:
+        return trace
+    burning = trace.burning.copy()
+    half = max(1, int(np.ceil(trace.n_cycle / 2)))
+    for k in restrike_idx:
+        lo = k - trace.start_idx
+        hi = min(lo + half, stop_idx - trace.start_idx, burning.shape[0] - 1)
+        if 0 <= lo < hi:
+            burning[lo:hi] = True
+    return dataclasses.replace(trace, burning=burning)
+
+
+def _refine(
+    v: np.ndarray,
+    t: np.ndarray,
+    *,
+    kc: int,
+    n: float,
+    f_hz: float,
+    lo: int,
+    hi: int,
+    arc_amp: float,
+) -> tuple[int, float] | None:
+    """Backward residual scan: first sample after the last departure from the recovery fit."""
+    w = 2 * np.pi * f_hz
+
+    def basis(x: np.ndarray) -> np.ndarray:
+        y = x * f_hz
+        return np.stack([np.cos(w * x), np.sin(w * x), np.ones_like(x), y, y * y], axis=1)
+
+    def scan(k_fit: int, k_top: int) -> tuple[int, float] | None:
+        fit_b = min(k_fit + int(np.ceil(1.5 * n)), hi)
+        if fit_b - k_fit < max(8, int(n)):
+            return None
+        tt = t[k_fit:fit_b] - t[k_fit]
+        coef, *_ = np.linalg.lstsq(basis(tt), v[k_fit:fit_b], rcond=None)
+        res_fit = v[k_fit:fit_b] - basis(tt) @ coef
+        s_lo = max(lo, k_top - int(np.ceil(2.0 * n)))
+        ts = t[s_lo : k_top + 1] - t[k_fit]
+        res = np.abs(v[s_lo : k_top + 1] - basis(ts) @ coef)
+        thr = max(5.0 * float(np.sqrt(np.mean(res_fit**2))), 0.3 * arc_amp)
+        big = np.flatnonzero(res > thr)
+        if big.size == 0:
+            return None
+        return s_lo + int(big[-1]) + 1, thr
+
+    first = scan(kc, kc)
+    if first is None:
+        return None
+    k1, thr1 = first
+    # fit again from just after the first estimate: a shorter extrapolation
+    k_fit = k1 + max(1, int(0.1 * n))
+    if k_fit < kc:
+        second = scan(k_fit, k_fit)
+        if second is not None and second[0] <= k_fit:
+            return second
+    return k1, thr1
+
+
+def detect_extinction(
+    record: Record,
+    *,
+    phase: str,
+    arc_start_s: float,
+    until_s: float,
+    quantities: Quantities | None = None,
+    h_on: float = 0.15,
+    h_off: float = 0.08,
+    level_min: float = 0.03,
+    trace: ArcTrace | None = None,
+) -> ExtinctionResult:
+    """Find the final extinction of the secondary arc on ``phase``.
+
+    Parameters
+    ----------
+    record : Record
+        The record.
+    phase : str
+        Open phase.
+    arc_start_s : float
+        Start of the secondary arc (the last pole opening of the phase).
+    until_s : float
+        End of the observation (reclose instant, or the end of the record).
+    quantities : Quantities, optional
+        Shared computed quantities.
+    h_on, h_off : float
+        Harmonic-ratio thresholds (see :func:`arc_trace`).
+    level_min : float
+        A recovered phase below this fraction of the healthy-phase voltage is flagged.
+    trace : ArcTrace, optional
+        A trace already computed with the same settings.
+
+    Returns
+    -------
+    ExtinctionResult
+        The final extinction, or a censored result.
+
+    Raises
+    ------
+    DetectionError
+        When the open phase's line-side voltage is not recorded and no arc-current channel
+        exists.
+    """
+    q = quantities or Quantities(record)
+    if q.values(ARC_CURRENT) is not None:
+        return _from_arc_current(record, q, phase, arc_start_s, until_s)
+    tr = trace or arc_trace(
+        record,
+        phase=phase,
+        start_s=arc_start_s,
+        until_s=until_s,
+        quantities=q,
+        h_on=h_on,
+        h_off=h_off,
+    )
+    role = V_LINE[phase]
+    t = record.t_s
+    a, b, n = tr.start_idx, tr.stop_idx, tr.n_cycle
+    observed = float(t[b - 1]) if b > 0 else float(until_s)
+    params = {"h_on": h_on, "h_off": h_off, "level_min": level_min}
+    chans = (q.channel_name(role),)
+    s, e = runs(tr.burning)
+    intervals = tuple(
+        (float(t[a + si]) - n / 2 / q.segment_at(a).rate_hz, float(t[a + ei - 1]))
+        for si, ei in zip(s, e, strict=True)
+    )
+    valid = np.isfinite(tr.hratio)
+    if not np.any(valid):
+        return ExtinctionResult(
+            None,
+            True,
+            observed,
+            arc_start_s,
+            (),
+            None,
+            ("the open phase was observed for less than a cycle after the arc start",),
+        )
+    last_valid = int(np.flatnonzero(valid)[-1])
+    if s.size and e[-1] > last_valid:
+        return ExtinctionResult(
+            None,
+            True,
+            observed,
+            arc_start_s,
+            intervals,
+            tr.arc_amplitude_v,
+            ("the arc still burns at the end of the observation",),
+        )
+    warns: list[str] = []
+    v = np.nan_to_num(q.values(role))
+    if s.size == 0:
+        lvl = tr.level_pu[valid]
+        if lvl.size and float(np.nanmedian(lvl)) < level_min:
+            return ExtinctionResult(
+                None,
+                True,
+                observed,
+                arc_start_s,
+                (),
+                None,
+                (
+                    "no arc signature and no recovery voltage on the open phase: a bolted "
+                    "(permanent) fault, or the voltage is not measured on the line side",
+                ),
+            )
+        kc = a
+        arc_amp = float(robust_scale(v[a : a + int(n)]) or 0.0)
+        method = "recovery voltage from the start (arc extinct at once)"
+        warns.append("no arc signature after the pole opening: the arc went out at once")
+    else:
+        kc = a + int(e[-1])
+        arc_amp = tr.arc_amplitude_v or 0.0
+        method = "arc-voltage harmonic signature, refined on the recovery-voltage fit"
+    seg_lo = q.segment_at(kc).start_idx
+    lo = max(a - int(np.ceil(n)), seg_lo)
+    ref = _refine(v, t, kc=kc, n=n, f_hz=q.f_hz, lo=lo, hi=b, arc_amp=arc_amp)
+    dt = 1.0 / q.segment_at(kc).rate_hz
+    if ref is not None:
+        k_ext, thr = ref
+        unc = max(dt, 0.05 * q.cycle_s)
+    else:
+        k_ext, thr = max(kc - int(n / 2), lo), float("nan")
+        unc = 0.5 * q.cycle_s
+        warns.append(
+            "extinction instant not refined (recovery voltage too short or too like the arc)"
+        )
+    if s.size == 0:
+        k_ext = max(k_ext, q.idx(arc_start_s))
+    if k_ext < seg_lo or kc - seg_lo < n:
+        # the change falls at the start of a segment: it happened in the record gap before it
+        gap_lo = float(t[seg_lo - 1]) if seg_lo > 0 else float(t[0])
+        unc = max(unc, float(t[seg_lo]) - gap_lo)
+        warns.append("extinction fell in a gap of the record; its instant is bounded by the gap")
+    t_ext = float(t[k_ext]) - 0.5 * dt
+    after = tr.level_pu[kc - a : min(kc - a + int(2 * n), b - a)]
+    after = after[np.isfinite(after)]
+    lvl_after = float(np.median(after)) if after.size else float("nan")
+    before = tr.level_pu[max(kc - a - int(2 * n), 0) : max(kc - a - int(n), 1)]
+    before = before[np.isfinite(before)]
+    lvl_before = float(np.median(before)) if before.size else float("nan")
+    h_before = float(np.nanmedian(tr.hratio[tr.burning])) if s.size else float("nan")
+    h_after = float(np.nanmedian(tr.hratio[kc - a :])) if kc - a < tr.hratio.size else float("nan")
+    conf = 0.9
+    if np.isfinite(lvl_after) and lvl_after < level_min:
+        warns.append(
+            f"after the arc signature ended the open phase stayed at {lvl_after:.1%} of the "
+            "healthy-phase voltage: check for a bolted fault or a highly compensated line"
+        )
+        conf = 0.5
+    if ref is None:
+        conf = min(conf, 0.6)
+    summary = (
+        f"arc-voltage harmonic ratio fell from {h_before:.2f} to {h_after:.2f}; open-phase "
+        f"voltage went from {lvl_before:.1%} to {lvl_after:.1%} of the healthy phases at "
+        f"{t_ext * 1e3:.1f} ms and stayed recovered for {(observed - t_ext) * 1e3:.0f} ms"
+        if s.size
+        else f"recovery voltage present from {t_ext * 1e3:.1f} ms"
+    )
+    ev = Event(
+        kind="extinction",
+        t_s=t_ext,
+        uncertainty_s=unc,
+        method=method,
+        confidence=conf,
+        evidence=Evidence(
+            summary=summary,
+            quantities={
+                "harmonic_ratio_before": h_before,
+                "harmonic_ratio_after": h_after,
+                "level_before_pu": lvl_before,
+                "level_after_pu": lvl_after,
+                "residual_threshold_v": thr,
+                "arc_voltage_peak_v": arc_amp,
+            },
+            channels=chans,
+        ),
+        params=params,
+        phase=phase,
+    )
+    return ExtinctionResult(
+        ev, False, observed, arc_start_s, intervals, tr.arc_amplitude_v, tuple(warns)
+    )
+
+
+def _from_arc_current(
+    record: Record, q: Quantities, phase: str, start_s: float, until_s: float
+) -> ExtinctionResult:
+    """Extinction from a measured fault-point arc current (staged tests)."""
+    i = np.nan_to_num(q.values(ARC_CURRENT))
+    t = record.t_s
+    k0 = q.idx(start_s)
+    k1 = record.n_samples if until_s >= t[-1] else q.idx(until_s)
+    n = q.n_cycle(k0)
+    seg = i[k0:k1]
+    if seg.size < 2:
+        return ExtinctionResult(None, True, float(until_s), start_s)
+    sigma = q.noise(ARC_CURRENT)
+    peak = float(np.max(np.abs(seg)))
+    thr = max(8.0 * sigma, 0.02 * peak, 1e-6)
+    active = np.abs(seg) > thr
+    observed = float(t[k1 - 1])
+    if not np.any(active):
+        k = k0
+    else:
+        last = int(np.flatnonzero(active)[-1])
+        if k1 - (k0 + last) < n:
+            return ExtinctionResult(
+                None,
+                True,
+                observed,
+                start_s,
+                warnings=("arc current flows until the end of the observation",),
+            )
+        k = k0 + last + 1
+    s, e = runs(active)
+    intervals = tuple((float(t[k0 + a]), float(t[k0 + b - 1])) for a, b in zip(s, e, strict=True))
+    t_ext = float(t[min(k, record.n_samples - 1)])
+    ev = Event(
+        kind="extinction",
+        t_s=t_ext,
+        uncertainty_s=1.0 / q.segment_at(k0).rate_hz,
+        method="measured arc current",
+        confidence=0.98,
+        evidence=Evidence(
+            summary=f"arc current last exceeded {thr:.3g} A at {t_ext * 1e3:.2f} ms",
+            quantities={"threshold_a": thr, "arc_current_peak_a": peak},
+            channels=(q.channel_name(ARC_CURRENT),),
+        ),
+        phase=phase,
+    )
+    return ExtinctionResult(ev, False, observed, start_s, intervals, None)

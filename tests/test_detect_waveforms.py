@@ -1,0 +1,221 @@
+"""Hand-built three-phase waveforms with known instants, for the detector tests.
+
+The waveforms follow derived circuit behaviour, not a simulator: a load flow, a phase-A fault
+current with decaying DC offset, pole openings at natural current zeros, a square-wave arc
+voltage in phase with a sinusoidal secondary-arc current, and after each extinction the
+recovery voltage of a capacitively coupled open phase — the forced component leads the arc
+current by 90° (i = C·dv/dt), plus the trapped charge left by the arc (a decaying offset, as a
+voltage transformer drains it) or, on a compensated line, a free oscillation at f_n that beats
+with the forced one. Instants are exact by construction.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from recordscan.core.record import AnalogChannel, Record, StatusChannel
+
+V_LL = 500e3
+V_PH = V_LL / np.sqrt(3.0)
+
+
+@dataclass
+class Scenario:
+    """Settings of a hand-built single-pole trip on phase A."""
+
+    f_hz: float = 60.0
+    fs_hz: float = 10000.0
+    duration_s: float = 1.5
+    inception_s: float = 0.1
+    load_a: float = 800.0
+    fault_a: float = 12000.0
+    trip_delay_s: float = 0.045
+    remote_delay_s: float = 0.0
+    arc_peak_v: float = 8000.0
+    recovery_pu: float = 0.16
+    extinction_after_s: float = 0.35
+    restrikes_after_s: tuple[float, ...] = ()
+    recovery_before_restrike_s: float = 0.012
+    reclose_after_s: float | None = 0.9
+    reclose_onto_fault: bool = False
+    free_hz: float | None = None
+    trapped_tau_s: float = 0.05
+    noise_snr_db: float | None = None
+    quantise_bits: int | None = None
+    pole_status: bool = False
+    aux_lag_s: float = 0.004
+    arc_current_channel: bool = False
+    seed: int = 11
+    truth: dict[str, object] = field(default_factory=dict)
+
+
+def _zero_after(t: np.ndarray, x: np.ndarray, t0: float) -> int:
+    k0 = int(np.searchsorted(t, t0))
+    s = np.sign(x[k0:])
+    hit = np.flatnonzero(s[1:] * s[:-1] <= 0)
+    return k0 + int(hit[0]) + 1
+
+
+def build(sc: Scenario) -> tuple[Record, dict[str, object]]:
+    """Build the record and its truth (instants in seconds from the first sample)."""
+    w = 2 * np.pi * sc.f_hz
+    n = int(sc.duration_s * sc.fs_hz)
+    t = np.arange(n) / sc.fs_hz
+    rng = np.random.default_rng(sc.seed)
+    shift = {"A": 0.0, "B": -2 * np.pi / 3, "C": 2 * np.pi / 3}
+    v = {p: np.sqrt(2) * V_PH * np.cos(w * t + shift[p]) for p in "ABC"}
+    i = {p: np.sqrt(2) * sc.load_a * np.cos(w * t + shift[p] - 0.3) for p in "ABC"}
+    tf = sc.inception_s
+    k_f = int(np.searchsorted(t, tf))
+    psi = 1.2
+    on = t >= tf
+    tau_dc = 0.04
+    i_fault = (
+        np.sqrt(2)
+        * sc.fault_a
+        * (np.sin(w * (t - tf) + psi) - np.sin(psi) * np.exp(-(t - tf) / tau_dc))
+    )
+    i["A"] = np.where(on, i["A"] + i_fault, i["A"])
+    share = 0.12 * i_fault
+    for p in "BC":
+        i[p] = np.where(on, i[p] + share, i[p])
+    v["A"] = np.where(on, 0.3 * v["A"] + 4000 * np.sign(i["A"]), v["A"])
+    # local opening at the first current zero after the contacts part
+    k_lo = _zero_after(t, i["A"], tf + sc.trip_delay_s)
+    t_lo = t[k_lo]
+    t_ro = t_lo + sc.remote_delay_s
+    k_ro = int(np.searchsorted(t, t_ro))
+    i["A"][k_lo:] = 0.0
+    for p in "BC":  # the remote infeed keeps a zero-sequence share until the far end opens
+        i[p][k_ro:] -= share[k_ro:]
+        i[p][k_lo:k_ro] -= 0.5 * share[k_lo:k_ro]
+    # secondary arc: current leads the coupled forced voltage by 90°
+    theta = 0.4
+    i_arc = np.sin(w * t + theta)
+    vf_pk = np.sqrt(2) * sc.recovery_pu * V_PH
+    v_forced = -vf_pk * np.cos(w * t + theta)
+    t_sa = max(t_lo, t_ro)
+    k_sa = int(np.searchsorted(t, t_sa))
+
+    def arc_v(k0: int, k1: int) -> np.ndarray:
+        grow = 1.0 + 1.5 * (t[k0:k1] - t_sa)
+        return sc.arc_peak_v * grow * np.sign(i_arc[k0:k1]) + 0.05 * v_forced[k0:k1]
+
+    va = v["A"].copy()
+    va[k_lo:k_sa] = 3000 * np.sign(i_arc[k_lo:k_sa])  # primary arc fed from the far end
+    t_rc = None if sc.reclose_after_s is None else t_lo + sc.reclose_after_s
+    k_end = n if t_rc is None else int(np.searchsorted(t, t_rc))
+    # stretches: burn → (recover → restrike → burn)* → final recovery
+    burn_start = k_sa
+    restrikes: list[float] = []
+    extinctions: list[float] = []
+    plan = [*(t_sa + r for r in sc.restrikes_after_s), None]
+    final: float | None = None
+    final_ext = t_sa + sc.extinction_after_s
+    for r_at in plan:
+        t_ex_target = (r_at - sc.recovery_before_restrike_s) if r_at is not None else final_ext
+        if t_ex_target >= t[k_end - 1]:
+            va[burn_start:k_end] = arc_v(burn_start, k_end)
+            burn_start = k_end
+            break
+        k_ex = _zero_after(t, i_arc, t_ex_target)
+        va[burn_start:k_ex] = arc_v(burn_start, k_ex)
+        t_ex = t[k_ex]
+        extinctions.append(float(t_ex))
+        v0 = va[k_ex - 1]
+        dt = t[k_ex:k_end] - t_ex
+        if sc.free_hz is None:
+            rec = v_forced[k_ex:k_end] + (v0 - v_forced[k_ex]) * np.exp(-dt / sc.trapped_tau_s)
+        else:
+            wn = 2 * np.pi * sc.free_hz
+            rec = v_forced[k_ex:k_end] + (v0 - v_forced[k_ex]) * np.cos(wn * dt) * np.exp(-dt / 1.0)
+        if r_at is None:
+            va[k_ex:k_end] = rec
+            burn_start = k_end
+            final = float(t_ex)
+            break
+        k_rs = int(np.searchsorted(t, t_ex + sc.recovery_before_restrike_s))
+        va[k_ex:k_rs] = rec[: k_rs - k_ex]
+        restrikes.append(float(t[k_rs]))
+        burn_start = k_rs
+    v["A"][k_lo:] = va[k_lo:]
+    arc_i = np.zeros(n)
+    # reclose
+    if t_rc is not None:
+        k_rc = k_end
+        v["A"][k_rc:] = np.sqrt(2) * V_PH * np.cos(w * t[k_rc:])
+        if sc.reclose_onto_fault:
+            i["A"][k_rc:] = np.sqrt(2) * sc.fault_a * np.sin(w * (t[k_rc:] - t[k_rc]) + psi)
+            v["A"][k_rc:] *= 0.3
+            k_3p = _zero_after(t, i["A"], t[k_rc] + 0.06)
+            for p in "ABC":
+                i[p][k_3p:] = 0.0
+            v["A"][k_3p:] = 0.0
+        else:
+            i["A"][k_rc:] = np.sqrt(2) * sc.load_a * np.cos(w * t[k_rc:] - 0.3)
+    for k0, k1 in _burning(t, k_sa, k_end, extinctions, restrikes):
+        arc_i[k0:k1] = 20 * np.sqrt(2) * i_arc[k0:k1]
+    truth = {
+        "inception_s": float(t[k_f]),
+        "pole_open_s": float(t_lo),
+        "remote_pole_open_s": float(t_ro),
+        "arc_start_s": float(t_sa),
+        "restrike_s": restrikes,
+        "extinction_s": final,
+        "reclose_s": None if t_rc is None else float(t[k_end]),
+    }
+    scale = {"v": 1.0, "i": 1.0}
+    if sc.noise_snr_db is not None:
+        for p in "ABC":
+            v[p] = v[p] + rng.normal(scale=V_PH * 10 ** (-sc.noise_snr_db / 20), size=n)
+            i[p] = i[p] + rng.normal(scale=sc.load_a * 10 ** (-sc.noise_snr_db / 20), size=n)
+    if sc.quantise_bits is not None:
+        for key, full in (("v", 2.5 * np.sqrt(2) * V_PH), ("i", 2.5 * np.sqrt(2) * sc.fault_a)):
+            lsb = 2 * full / 2**sc.quantise_bits
+            table = v if key == "v" else i
+            for p in "ABC":
+                table[p] = np.round(table[p] / lsb) * lsb
+            scale[key] = lsb
+    analog = [AnalogChannel(f"V{p}", v[p], "V", p, f"v_{p.lower()}") for p in "ABC"]
+    analog += [AnalogChannel(f"I{p}", i[p], "A", p, f"i_{p.lower()}") for p in "ABC"]
+    if sc.arc_current_channel:
+        analog.append(AnalogChannel("IARC", arc_i, "A", None, "arc_i"))
+    digital = []
+    if sc.pole_status:
+        for p in "ABC":
+            closed = np.ones(n, dtype=bool)
+            if p == "A":
+                k_aux = int(np.searchsorted(t, t_lo + sc.aux_lag_s))
+                closed[k_aux:] = False
+                if t_rc is not None:
+                    closed[int(np.searchsorted(t, t_rc - sc.aux_lag_s)) :] = True
+            digital.append(StatusChannel(f"52{p}", closed, p, f"pole_{p.lower()}"))
+    rec = Record(
+        t_s=t,
+        analog=tuple(analog),
+        digital=tuple(digital),
+        frequency_hz=sc.f_hz,
+        station="Ashcombe",
+        device="demo recorder",
+        start_ns=1_780_000_000_000_000_000,
+        trigger_ns=1_780_000_000_000_000_000 + int(tf * 1e9),
+    )
+    return rec, truth
+
+
+def _burning(
+    t: np.ndarray, k_sa: int, k_end: int, ext: list[float], rs: list[float]
+) -> list[tuple[int, int]]:
+    starts = [k_sa] + [int(np.searchsorted(t, r)) for r in rs]
+    stops = [int(np.searchsorted(t, e)) for e in ext] + [k_end]
+    return list(zip(starts, stops[: len(starts)], strict=True))
+
+
+def test_builder_truth_is_consistent() -> None:
+    rec, truth = build(Scenario(restrikes_after_s=(0.1,)))
+    assert truth["inception_s"] < truth["pole_open_s"] < truth["extinction_s"] < truth["reclose_s"]
+    assert len(truth["restrike_s"]) == 1
+    k = int(np.searchsorted(rec.t_s, truth["pole_open_s"]))
+    assert np.all(rec.analog_by_role("i_a").values[k : k + 100] == 0.0)
