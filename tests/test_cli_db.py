@@ -177,3 +177,29 @@ def test_bad_input_gives_one_line_errors_and_stores_nothing(
     assert code == 2 and "--since" in err
     code, _, err = run(["db", "--db", "nosuchdialect://x", "lines"], capsys)
     assert code == 2 and err.startswith("recordscan: error:") and "cannot open" in err
+
+
+def test_events_without_line_or_outcome_show_plain_dashes(
+    tmp_path: Path, fleet: list[dict], capsys: pytest.CaptureFixture[str]
+) -> None:
+    quiet = dict(
+        fleet[0],
+        sha256="cd" * 32,
+        event="no_fault",
+        line=None,
+        voltage_kv=None,
+        faulted_phase=None,
+        outcome=None,
+        extinction_s=None,
+        pole_open_s=None,
+    )
+    db = str(tmp_path / "arcs.sqlite")
+    jsonl = write_jsonl(tmp_path / "r.jsonl", [quiet, fleet[1]])
+    assert run(["db", "--db", db, "import", str(jsonl)], capsys)[0] == 0
+    code, out, _ = run(["db", "--db", db, "events"], capsys)
+    assert code == 0 and "nan" not in out.lower() and "no_fault" in out
+    code, _, err = run(["db", "--db", db, "events", "--kv", "0"], capsys)
+    assert code == 2 and "--kv" in err
+    code, out, _ = run(["db", "--db", db, "report", "--out", str(tmp_path / "rep")], capsys)
+    assert code == 0
+    assert ">nan<" not in (tmp_path / "rep" / "fleet-report.html").read_text(encoding="utf-8")

@@ -25,7 +25,11 @@ def _open(ctx: click.Context) -> Any:
 def _filter_options(f: Callable[..., Any]) -> Callable[..., Any]:
     opts = [
         click.option("--line", help="Only this line (exact name)."),
-        click.option("--kv", type=float, help="Only this voltage class, kV line-to-line."),
+        click.option(
+            "--kv",
+            type=click.FloatRange(min=0.0, min_open=True),
+            help="Only this voltage class, kV line-to-line.",
+        ),
         click.option("--since", help="Records starting at or after this UTC date/instant."),
         click.option(
             "--until", help="Records starting before this UTC instant (a date: to its end)."
@@ -82,6 +86,13 @@ def _make_filter(
     if tag_kv:
         words.append(f"tag {tag_kv}")
     return flt, ", ".join(words) or "all stored events"
+
+
+def _txt(value: Any, empty: str = "—") -> str:
+    """Text of a stored value; missing (None or NaN) shows as ``empty``."""
+    if value is None or (isinstance(value, float) and value != value):
+        return empty
+    return str(value)
 
 
 def _ms(t: Any) -> str:
@@ -174,7 +185,7 @@ def lines(ctx: click.Context, as_json: bool) -> None:
         km = "—" if r["length_m"] is None else f"{r['length_m'] / 1e3:.1f}"
         click.echo(
             f"{r['name']:<32} {kv:>6} {km:>7} {_ms(r['dead_time_s']):>12} {r['n_events']:>7}  "
-            f"{r['compensation'] or '—'}"
+            f"{_txt(r['compensation'])}"
         )
 
 
@@ -211,9 +222,9 @@ def events(ctx: click.Context, limit: int | None, as_json: bool, **filters: Any)
             else (f"{r.secondary_arc_current_rms_a:.1f}")
         )
         click.echo(
-            f"{str(r.start or '')[:19]:<19} {str(r.line or '—')[:28]:<28} "
-            f"{r.faulted_phase or '—':<2} {ext:>10} {r.n_restrikes:>2} {cur:>6} "
-            f"{r.outcome or r.event!s:<18} {r.sha256[:12]}"
+            f"{_txt(r.start, '')[:19]:<19} {_txt(r.line)[:28]:<28} "
+            f"{_txt(r.faulted_phase):<2} {ext:>10} {r.n_restrikes:>2} {cur:>6} "
+            f"{_txt(r.outcome, _txt(r.event)):<18} {r.sha256[:12]}"
         )
     click.echo(f"{len(frame)} events")
 
@@ -365,10 +376,15 @@ def deadtime(
         + (f", {ev.n_excluded} without timing" if ev.n_excluded else "")
     )
     pct, conf = f"{ev.probability:.0%}", f"{ev.confidence:.0%}"
-    click.echo(
-        f"  {pct} of arcs out by {_ms(ev.empirical_s)} ms after the {start} "
-        f"({conf} limits {_ms(ev.empirical_low_s)}–{_ms(ev.empirical_high_s)} ms)"
-    )
+    if ev.empirical_s is None:
+        click.echo(f"  {pct} of arcs out: not reached within the observations")
+    else:
+        low = _ms(ev.empirical_low_s)
+        if ev.empirical_high_s is None:
+            limits = f"{conf} limits {low} ms to beyond the data"
+        else:
+            limits = f"{conf} limits {low}–{_ms(ev.empirical_high_s)} ms"
+        click.echo(f"  {pct} of arcs out by {_ms(ev.empirical_s)} ms after the {start} ({limits})")
     if ev.setting_s is not None:
         p = ev.extinct_by_setting
         text = (

@@ -57,6 +57,7 @@ def survival_plot(
     """
     ax = _axes(ax)
     drawn = 0
+    frame = frame.assign(line=frame["line"].fillna("(line not known)"))
     for i, (line, group) in enumerate(frame.groupby("line", sort=True)):
         sample = extinction_sample(group, origin=origin)
         if sample.n == 0:

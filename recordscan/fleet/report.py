@@ -26,6 +26,9 @@ from recordscan.fleet.trend import extinction_trend
 if TYPE_CHECKING:
     import pandas as pd
 
+#: Group name of events stored without a line.
+UNKNOWN_LINE = "(line not known)"
+
 _CSS = """
 body { font-family: system-ui, sans-serif; margin: 1.5em auto; max-width: 1100px;
        color: #1d1d1d; line-height: 1.4; padding: 0 1em; }
@@ -74,6 +77,13 @@ def _png(fig: Any) -> str:
 
 def _img(fig: Any, alt: str) -> str:
     return f'<img alt="{html.escape(alt)}" src="data:image/png;base64,{_png(fig)}">'
+
+
+def _txt(value: Any, empty: str = "—") -> str:
+    """Escaped text of a stored value; missing (None or NaN) shows as ``empty``."""
+    if value is None or (isinstance(value, float) and value != value):
+        return empty
+    return html.escape(str(value))
 
 
 def _ms(t: float | None) -> str:
@@ -176,15 +186,15 @@ def _events_rows(frame: pd.DataFrame) -> list[list[str]]:
         dur_text = f"&gt; {_ms(r.observed_until_s - r.pole_open_s)}" if cens else _ms(dur)
         rows.append(
             [
-                html.escape(str(r.start or "")[:19].replace("T", " ")),
-                html.escape(str(r.line or "—")),
-                html.escape(str(r.faulted_phase or "—")),
+                _txt(r.start, "")[:19].replace("T", " "),
+                _txt(r.line),
+                _txt(r.faulted_phase),
                 dur_text,
                 str(int(r.n_restrikes)),
                 _num(r.secondary_arc_current_rms_a),
                 _num(r.recovery_voltage_rms_v, "{:.1f}", 1e-3),
                 _ms(r.dead_time_s),
-                html.escape(str(r.outcome or "—")),
+                _txt(r.outcome),
                 f"<code>{html.escape(str(r.sha256)[:12])}</code>",
             ]
         )
@@ -228,6 +238,7 @@ def render_report(
 
     opts = options or ReportOptions()
     frame = store.events(flt)
+    frame["line"] = frame["line"].fillna(UNKNOWN_LINE)
     spt = frame[frame["event"] == "single_pole_trip"]
     fits = store.fits(flt)
     line_rows, evidence = _line_rows(spt, opts)
