@@ -192,3 +192,19 @@ def test_bad_descriptions_raise_model_error(change: dict[str, object], match: st
     spec = dataclasses.replace(event(fault=None, trip_l={}, trip_r={}, t_end_s=0.01), **change)
     with pytest.raises(ModelError, match=match):
         simulate_event(spec)
+
+
+def test_default_arc_extinguishes_within_usual_dead_times() -> None:
+    # Sanity check of the defaults (soft): on this 400 kV line (I_s ≈ 40 A) the secondary
+    # arc outlives the three-pole deionisation minimum, 10.5 + kV/34.5 cycles = 368 ms at
+    # 400 kV (Boisseau, Wyman & Skeats, AIEE 1949, reproduced in IEEE C37.104 — from
+    # memory), and clears within the usual single-pole dead times of 0.5–1.5 s (common
+    # practice).
+    spec = event(fault=arc_fault(), trip_l={"A": 0.1}, trip_r={"A": 0.105}, t_end_s=2.0)
+    tr = simulate_event(spec).truth
+    assert 20.0 < tr.secondary_arc_current_rms_a < 80.0
+    assert tr.extinction_s is not None
+    burn_s = tr.extinction_s - tr.secondary_arc_start_s
+    deion_s = (10.5 + 400 / 34.5) / 60.0
+    assert deion_s == pytest.approx(0.3682, abs=1e-4)
+    assert deion_s < burn_s < 1.5
