@@ -63,6 +63,10 @@ def test_small_example_closed_form() -> None:
     var3 = Fraction(64, 225) * (Fraction(1, 20) + Fraction(1, 6))
     assert km.greenwood_var[1] == pytest.approx(float(var3), rel=1e-14)
     assert km.greenwood_var[2] == 0.0  # S = 0: nothing left to vary
+    assert km.lower[2] == 0.0 and km.upper[2] == km.upper[1]  # band kept open at S = 0
+    one = kaplan_meier([0.5], [True])  # a single arc says little: band spans 0…1
+    assert (one.survival[0], one.lower[0], one.upper[0]) == (0.0, 0.0, 1.0)
+    assert one.percentile(0.95) == (0.5, 0.5, None)
     # Step function, right-continuous; beyond the last time S stays 0 (last was an event).
     np.testing.assert_allclose(
         km.survival_at([0.5, 1.0, 2.9, 3.0, 4.9, 5.0, 9.0]), [1, 0.8, 0.8, 8 / 15, 8 / 15, 0, 0]

@@ -209,7 +209,8 @@ def dead_time_evidence(
     need = math.ceil(1.0 / (1.0 - probability))
     if km.n < need:
         notes.append(
-            f"only {km.n} events: at least {need} are needed before the {probability:.0%} point "
+            f"only {km.n} event{'s' if km.n != 1 else ''}: at least {need} are needed before "
+            f"the {probability:.0%} point "
             "rests on more than the single longest arc"
         )
     if km.n_censored:

@@ -150,7 +150,9 @@ def kaplan_meier(
     Notes
     -----
     Ties between an extinction and a censoring at the same time follow the usual
-    convention: the censored arc counts as at risk at that time.
+    convention: the censored arc counts as at risk at that time. Where the estimate reaches 0
+    (the longest arc was seen to go out) the band's upper edge stays at its previous value,
+    as the log(−log) band is undefined there.
     """
     t = np.asarray(durations_s, dtype=float).ravel()
     d = np.asarray(observed, dtype=bool).ravel()
@@ -175,8 +177,11 @@ def kaplan_meier(
         inside = (surv > 0) & (surv < 1) & np.isfinite(se_theta)
         lower = np.where(inside, surv ** np.exp(z * se_theta), 0.0)
         upper = np.where(inside, surv ** np.exp(-z * se_theta), np.where(surv >= 1, 1.0, 0.0))
-    # Once S reaches 0 the band collapses to 0; before any event it is 1.
     lower = np.where(surv >= 1, 1.0, lower)
+    # Where S reaches 0 the log(−log) band is undefined and Greenwood's variance is 0: keep the
+    # upper edge of the step before (1 before any event) rather than claim certainty.
+    for k in np.flatnonzero(surv <= 0):
+        upper[k] = upper[k - 1] if k > 0 else 1.0
     return KaplanMeier(
         times_s=times,
         n_at_risk=n_risk,
