@@ -106,3 +106,23 @@ def test_travelling_wave_refuses_untransposed_line() -> None:
     )  # fmt: skip
     with pytest.raises(ModelError, match="transposed"):
         simulate_event(spec)
+
+
+def test_fault_close_to_an_end_keeps_the_closed_form() -> None:
+    # A 2 km stretch travels in 6.7 µs, less than one 20 µs step: it becomes a pi section,
+    # and the secondary arc current still follows ω(C1 − C0)·V·ℓ/3 (Kimbark 1964).
+    spec = EventSpec(
+        line=line(100e3), frequency_hz=F_HZ, local=SRC, remote=SRC,
+        reactor_local=None, reactor_remote=None,
+        breaker_local=BreakerSpec(trip_s={"A": -1.0}),
+        breaker_remote=BreakerSpec(trip_s={"A": -1.0}),
+        fault=FaultSpec(phase="A", location_m=2e3, inception_s=-1.0, r_fault_ohm=1e-3,
+                        permanent=True),
+        t_end_s=0.06, line_model="travelling_wave",
+    )  # fmt: skip
+    res = simulate_event(spec)
+    w = 2 * math.pi * F_HZ
+    a = np.column_stack([np.cos(w * res.t_s), np.sin(w * res.t_s), np.ones_like(res.t_s)])
+    coef, *_ = np.linalg.lstsq(a, res.arc_i_a, rcond=None)
+    closed = w * (C1 - C0) / 3 * 400e3 / math.sqrt(3) * 100e3
+    assert math.hypot(coef[0], coef[1]) / math.sqrt(2) == pytest.approx(closed, rel=0.01)
