@@ -259,10 +259,12 @@ def to_record(
             skew_s=spec.skew_us * 1e-6,
         )
         f = scaling.to_primary
-        values = raw_analog[:, j].astype(np.float64)
-        values *= spec.a * f
-        if spec.b:
-            values += spec.b * f
+        # signalling NaNs in FLOAT32 data, absurd a·x products: no stray warnings
+        with np.errstate(invalid="ignore", over="ignore"):
+            values = raw_analog[:, j].astype(np.float64)
+            values *= spec.a * f
+            if spec.b:
+                values += spec.b * f
         if raw.missing is not None:
             miss = raw.missing[:, j]
             if miss.any():

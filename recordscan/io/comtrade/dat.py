@@ -148,7 +148,8 @@ def decode_binary(
     rows = np.frombuffer(data, dtype=dtype, count=n)
     analog = rows["a"]
     if data_format == "FLOAT32":
-        miss = np.isnan(analog)
+        with np.errstate(invalid="ignore"):
+            miss = ~np.isfinite(analog)  # NaN marks missing; an infinity is no measurement
     else:
         miss = analog == MISSING_INT[data_format]
     ts = rows["ts"].astype(np.float64)
