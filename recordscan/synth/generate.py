@@ -33,6 +33,7 @@ from recordscan.synth.scenario import (
     default_dead_time_s,
     load_scenario,
     scenario_to_dict,
+    utc_text_to_ns,
 )
 
 __all__ = [
@@ -575,8 +576,10 @@ def _record_end(
         )
 
     station = line.stations[e]
-    offset_ns = round((scenario.seed % 86_400) * 1e9) + round(timing.record_start_s * 1e9)
-    start_ns = _EPOCH_NS + offset_ns
+    if scenario.output.start_utc is not None:
+        start_ns = utc_text_to_ns(scenario.output.start_utc)
+    else:
+        start_ns = _EPOCH_NS + (scenario.seed % 86_400) * 1_000_000_000
     trigger_rel = (
         timing.inception_s
         if timing.inception_s is not None
@@ -636,6 +639,12 @@ def _truth(
         if (reclose_first is not None and extinction is not None)
         else None
     )
+    chain = kind == "single_phase"
+    if not chain:
+        # the single-pole event chain does not apply: a three-pole trip de-energises the
+        # line and whatever the fault path does afterwards is not a secondary arc
+        extinction = None
+        margin = None
     return {
         "schema": TRUTH_SCHEMA,
         "scenario": scenario.name,
@@ -650,12 +659,20 @@ def _truth(
         "fault_inception_s": _rel(timing.inception_s, t0),
         "trip_command_s": {e: _rel(timing.trip_command_s[e], t0) for e in ENDS},
         "pole_open_s": pole_open,
-        "secondary_arc_start_s": _rel(getattr(tr, "secondary_arc_start_s", None), t0),
-        "restrike_s": [float(t) - t0 for t in (getattr(tr, "restrike_s", ()) or ())],
-        "extinctions_s": [float(t) - t0 for t in (getattr(tr, "extinctions_s", ()) or ())],
+        "secondary_arc_start_s": (
+            _rel(getattr(tr, "secondary_arc_start_s", None), t0) if chain else None
+        ),
+        "restrike_s": (
+            [float(t) - t0 for t in (getattr(tr, "restrike_s", ()) or ())] if chain else []
+        ),
+        "extinctions_s": (
+            [float(t) - t0 for t in (getattr(tr, "extinctions_s", ()) or ())] if chain else []
+        ),
         "extinction_s": extinction,
-        "secondary_arc_current_rms_a": getattr(tr, "secondary_arc_current_rms_a", None),
-        "recovery_voltage_rms_v": getattr(tr, "recovery_voltage_rms_v", None),
+        "secondary_arc_current_rms_a": (
+            getattr(tr, "secondary_arc_current_rms_a", None) if chain else None
+        ),
+        "recovery_voltage_rms_v": getattr(tr, "recovery_voltage_rms_v", None) if chain else None,
         "primary_fault_current_rms_a": getattr(tr, "primary_fault_current_rms_a", None),
         "reclose_command_s": {e: _rel(timing.reclose_command_s[e], t0) for e in ENDS},
         "reclose_s": reclose,
@@ -826,6 +843,9 @@ def _atomic_text(path: Path, text: str) -> None:
     try:
         with os.fdopen(fd, "w", encoding="utf-8") as fh:
             fh.write(text)
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)  # as an ordinary open() would create it
         os.replace(tmp, path)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)

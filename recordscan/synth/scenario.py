@@ -47,6 +47,7 @@ __all__ = [
     "parse_scenario",
     "scenario_to_dict",
     "scenario_to_toml",
+    "utc_text_to_ns",
 ]
 
 SCENARIO_SCHEMA = 1
@@ -294,7 +295,11 @@ class InstrumentSettings:
 
 @dataclass(frozen=True)
 class OutputSettings:
-    """What to write: COMTRADE revision and format, container, recorded ends, units."""
+    """What to write: COMTRADE revision and format, container, recorded ends, units.
+
+    ``start_utc`` is the UTC instant of the records' first sample as ISO 8601 text
+    (``2026-03-14T09:26:53.250Z``); None → a fixed fictional date offset by the seed.
+    """
 
     revision: str = "2013"
     data_format: str = "BINARY"
@@ -302,6 +307,7 @@ class OutputSettings:
     ends: tuple[str, ...] = ("local",)
     values: str = "secondary"
     stem: str | None = None
+    start_utc: str | None = None
 
 
 @dataclass(frozen=True)
@@ -440,6 +446,35 @@ def _phases(t: _Table, kind: str) -> tuple[str, ...]:
     if len(ph) != need:
         raise t.fail("phases", f"a {kind} fault needs {need} phase(s), got {len(ph)}")
     return ph
+
+
+def _start_utc(t: _Table) -> str | None:
+    import datetime as dt
+
+    v = t.get("start_utc", None)
+    if v is None:
+        return None
+    if isinstance(v, str):
+        try:
+            v = dt.datetime.fromisoformat(v.replace("Z", "+00:00"))
+        except ValueError:
+            raise t.fail("start_utc", f"not an ISO 8601 date and time: {v!r}") from None
+    if not isinstance(v, dt.datetime):
+        raise t.fail("start_utc", "expected a date and time such as 2026-03-14T09:26:53Z")
+    if v.tzinfo is None:
+        v = v.replace(tzinfo=dt.timezone.utc)
+    v = v.astimezone(dt.timezone.utc)
+    return v.strftime("%Y-%m-%dT%H:%M:%S.%fZ")
+
+
+def utc_text_to_ns(text: str) -> int:
+    """Integer UTC nanoseconds of a ``start_utc`` text (microsecond resolution)."""
+    import datetime as dt
+
+    v = dt.datetime.strptime(text, "%Y-%m-%dT%H:%M:%S.%fZ").replace(tzinfo=dt.timezone.utc)
+    epoch = dt.datetime(1970, 1, 1, tzinfo=dt.timezone.utc)
+    delta = v - epoch
+    return (delta.days * 86_400 + delta.seconds) * 1_000_000_000 + delta.microseconds * 1_000
 
 
 def _source(t: _Table) -> SourceSettings:
@@ -667,6 +702,7 @@ def parse_scenario(
         ends=tuple(ends),
         values=ot.text("values", "secondary", ("primary", "secondary")) or "secondary",
         stem=ot.text("stem", None),
+        start_utc=_start_utc(ot),
     )
     ot.finish()
 
