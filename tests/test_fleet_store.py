@@ -231,7 +231,17 @@ def test_fits_are_stored_with_uncertainties(db_url: str) -> None:
         fits = store.fits(EventFilter(line="Ashcombe–Brightwater"))
         assert len(fits) == 2
         assert set(fits["method"]) == {"direct", "indirect"}
-        row = fits[fits["method"] == "direct"].iloc[0]
+        later = dict(make_fit(fleet[0]), u0_v_per_m=2000.0)  # a later fit of the same method
+        assert store.add_fit(fleet[0]["sha256"][:8], later) == fleet[0]["sha256"]
+        store.add_fit(fleet[0]["sha256"][:8], later)  # replaces, never duplicates
+        fits = store.fits(EventFilter(line="Ashcombe–Brightwater"))
+        assert len(fits) == 3
+        mine = fits[fits["sha256"] == fleet[0]["sha256"]]
+        assert set(mine["method"]) == {"direct", "indirect"}
+        assert float(mine[mine["method"] == "direct"]["u0_v_per_m"].iloc[0]) == 2000.0
+        with pytest.raises(FormatError, match="method"):
+            store.add_fit(fleet[0]["sha256"][:8], {"u0_v_per_m": 1.0})
+        row = fits[fits["sha256"] == fleet[1]["sha256"]].iloc[0]
         assert row["u0_v_per_m_stderr"] == pytest.approx(0.1 * row["u0_v_per_m"])
         assert row["tau0_s_status"] == "fitted" and bool(row["success"])
 

@@ -169,7 +169,7 @@ def _event_row(result: Mapping[str, Any], where: str) -> dict[str, Any]:
     return row
 
 
-def _fit_row(fit: Mapping[str, Any], where: str) -> dict[str, Any]:
+def fit_row(fit: Mapping[str, Any], where: str) -> dict[str, Any]:
     where = f"{where}, arc fit"
     method = fit.get("method")
     if not isinstance(method, str) or not method:
@@ -264,5 +264,5 @@ def prepare(
                     "voltage_v": _float(v, name="restrike_voltage_v", where=where),
                 }
             )
-    fit_row = None if fit is None else _fit_row(fit, where)
-    return Prepared(sha, record, line_row, event, restrike_rows, fit_row)
+    fit_values = None if fit is None else fit_row(fit, where)
+    return Prepared(sha, record, line_row, event, restrike_rows, fit_values)

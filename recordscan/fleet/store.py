@@ -25,7 +25,14 @@ import sqlalchemy as sa
 
 from recordscan.errors import StoreError
 from recordscan.fleet import schema as S
-from recordscan.fleet.convert import SHA_CHARS, Prepared, line_fields, parse_instant_ns, prepare
+from recordscan.fleet.convert import (
+    SHA_CHARS,
+    Prepared,
+    fit_row,
+    line_fields,
+    parse_instant_ns,
+    prepare,
+)
 
 __all__ = [
     "ENV_VAR",
@@ -328,6 +335,37 @@ class Store:
                 self._write(lambda conn, p=item: _insert(conn, p, tag_rows, replace=replace))
             )
         return summary
+
+    def add_fit(self, sha256_prefix: str, fit: Mapping[str, Any]) -> str:
+        """Attach an arc-parameter fit to a stored record (replacing one of the same method).
+
+        Parameters
+        ----------
+        sha256_prefix : str
+            The record's sha256 or its first digits (at least 4).
+        fit : mapping
+            Fit result (``method``, parameters with ``…_stderr`` and ``…_status``,
+            ``elongation_law``, ``elongation_params``, ``residual_rms``, ``success``,
+            ``message``).
+
+        Returns
+        -------
+        str
+            Full sha256 of the record.
+        """
+        values = fit_row(fit, f"fit for record {sha256_prefix}")
+
+        def run(conn: sa.Connection) -> str:
+            rec_id, sha = _find_record(conn, sha256_prefix, self.url)
+            conn.execute(
+                sa.delete(S.arc_fits).where(
+                    S.arc_fits.c.record_id == rec_id, S.arc_fits.c.method == values["method"]
+                )
+            )
+            conn.execute(sa.insert(S.arc_fits).values(record_id=rec_id, **values))
+            return sha
+
+        return self._write(run)
 
     def tag(self, sha256_prefix: str, *, key: str, value: str | None) -> str:
         """Set (or with ``value=None`` remove) a free tag on a stored record.
