@@ -160,3 +160,28 @@ def test_extinction_sample_from_events_frame() -> None:
     assert s.n_excluded == 2  # c: neither extinction nor censoring; d: no pole opening
     s2 = extinction_sample(frame)
     np.testing.assert_allclose(s2.durations_s, [0.30, 0.79, 0.2])
+
+
+@settings(max_examples=60, deadline=None)
+@given(
+    st.lists(
+        st.tuples(st.integers(min_value=0, max_value=30), st.booleans()), min_size=1, max_size=50
+    )
+)
+def test_matches_a_plain_loop_of_the_product_limit_definition(pairs: list) -> None:
+    # Reference: the definition written out as a loop (Kaplan & Meier 1958, eq. 2):
+    # S(t) = Π_{t_j <= t} (1 − d_j / n_j), n_j = number with time >= t_j.
+    t = np.array([p[0] for p in pairs], dtype=float)
+    d = np.array([p[1] for p in pairs], dtype=bool)
+    km = kaplan_meier(t, d)
+    s, gw = 1.0, 0.0
+    expected_s, expected_var = [], []
+    for tj in sorted(set(t[d])):
+        n_j = sum(1 for x in t if x >= tj)
+        d_j = sum(1 for x, o in zip(t, d, strict=True) if o and x == tj)
+        s *= 1.0 - d_j / n_j
+        gw = gw + d_j / (n_j * (n_j - d_j)) if n_j > d_j else float("inf")
+        expected_s.append(s)
+        expected_var.append(s * s * gw if s > 0 else 0.0)
+    np.testing.assert_allclose(km.survival, expected_s, rtol=1e-12, atol=0)
+    np.testing.assert_allclose(km.greenwood_var, expected_var, rtol=1e-12, atol=0)

@@ -162,9 +162,10 @@ def kaplan_meier(
         raise StatisticsError("kaplan_meier: durations must be finite and non-negative")
     if not 0.0 < confidence < 1.0:
         raise StatisticsError(f"kaplan_meier: confidence must be in (0, 1), got {confidence}")
-    times = np.unique(t[d])
-    n_risk = (t[None, :] >= times[:, None]).sum(axis=1).astype(np.int64)
-    n_ev = (d[None, :] & (t[None, :] == times[:, None])).sum(axis=1).astype(np.int64)
+    times, n_ev = np.unique(t[d], return_counts=True)
+    n_ev = n_ev.astype(np.int64)
+    # at risk at t_j: arcs whose time (extinction or censoring) is >= t_j; O(n log n)
+    n_risk = (t.size - np.searchsorted(np.sort(t), times, side="left")).astype(np.int64)
     with np.errstate(divide="ignore", invalid="ignore"):
         factor = 1.0 - n_ev / n_risk
         surv = np.cumprod(factor)
