@@ -47,6 +47,9 @@ class Scenario:
     pole_status: bool = False
     aux_lag_s: float = 0.004
     arc_current_channel: bool = False
+    cvt_transient: bool = False
+    three_pole: bool = False
+    second_phase_after_s: float | None = None
     seed: int = 11
     truth: dict[str, object] = field(default_factory=dict)
 
@@ -63,7 +66,6 @@ def build(sc: Scenario) -> tuple[Record, dict[str, object]]:
     w = 2 * np.pi * sc.f_hz
     n = int(sc.duration_s * sc.fs_hz)
     t = np.arange(n) / sc.fs_hz
-    rng = np.random.default_rng(sc.seed)
     shift = {"A": 0.0, "B": -2 * np.pi / 3, "C": 2 * np.pi / 3}
     v = {p: np.sqrt(2) * V_PH * np.cos(w * t + shift[p]) for p in "ABC"}
     i = {p: np.sqrt(2) * sc.load_a * np.cos(w * t + shift[p] - 0.3) for p in "ABC"}
@@ -82,9 +84,23 @@ def build(sc: Scenario) -> tuple[Record, dict[str, object]]:
     for p in "BC":
         i[p] = np.where(on, i[p] + share, i[p])
     v["A"] = np.where(on, 0.3 * v["A"] + 4000 * np.sign(i["A"]), v["A"])
+    if sc.second_phase_after_s is not None:  # evolving fault: B joins, then three poles trip
+        t2 = tf + sc.second_phase_after_s
+        on2 = t >= t2
+        i_b = np.sqrt(2) * sc.fault_a * (np.sin(w * (t - t2) + psi + shift["B"]))
+        i["B"] = np.where(on2, i["B"] + i_b, i["B"])
+        v["B"] = np.where(on2, 0.3 * v["B"], v["B"])
+    if sc.three_pole or sc.second_phase_after_s is not None:
+        for p in "ABC":
+            k = _zero_after(t, i[p], tf + sc.trip_delay_s + 0.02 * (sc.second_phase_after_s or 0))
+            i[p][k:] = 0.0
+            v[p][k:] = 0.02 * v[p][k:]
+        truth = {"inception_s": float(t[k_f])}
+        return _record(sc, t, v, i, [], np.zeros(n)), truth
     # local opening at the first current zero after the contacts part
     k_lo = _zero_after(t, i["A"], tf + sc.trip_delay_s)
-    t_lo = t[k_lo]
+    y0, y1 = i["A"][k_lo - 1], i["A"][k_lo]
+    t_lo = t[k_lo - 1] + (y0 / (y0 - y1) if y0 != y1 else 1.0) / sc.fs_hz  # the true zero
     t_ro = t_lo + sc.remote_delay_s
     k_ro = int(np.searchsorted(t, t_ro))
     i["A"][k_lo:] = 0.0
@@ -128,6 +144,8 @@ def build(sc: Scenario) -> tuple[Record, dict[str, object]]:
         dt = t[k_ex:k_end] - t_ex
         if sc.free_hz is None:
             rec = v_forced[k_ex:k_end] + (v0 - v_forced[k_ex]) * np.exp(-dt / sc.trapped_tau_s)
+            if sc.cvt_transient:  # a decaying low-frequency ring, as a CVT's subsidence
+                rec = rec + 0.4 * vf_pk * np.exp(-dt / 0.04) * np.sin(2 * np.pi * 12.0 * dt)
         else:
             wn = 2 * np.pi * sc.free_hz
             rec = v_forced[k_ex:k_end] + (v0 - v_forced[k_ex]) * np.cos(wn * dt) * np.exp(-dt / 1.0)
@@ -166,22 +184,6 @@ def build(sc: Scenario) -> tuple[Record, dict[str, object]]:
         "extinction_s": final,
         "reclose_s": None if t_rc is None else float(t[k_end]),
     }
-    scale = {"v": 1.0, "i": 1.0}
-    if sc.noise_snr_db is not None:
-        for p in "ABC":
-            v[p] = v[p] + rng.normal(scale=V_PH * 10 ** (-sc.noise_snr_db / 20), size=n)
-            i[p] = i[p] + rng.normal(scale=sc.load_a * 10 ** (-sc.noise_snr_db / 20), size=n)
-    if sc.quantise_bits is not None:
-        for key, full in (("v", 2.5 * np.sqrt(2) * V_PH), ("i", 2.5 * np.sqrt(2) * sc.fault_a)):
-            lsb = 2 * full / 2**sc.quantise_bits
-            table = v if key == "v" else i
-            for p in "ABC":
-                table[p] = np.round(table[p] / lsb) * lsb
-            scale[key] = lsb
-    analog = [AnalogChannel(f"V{p}", v[p], "V", p, f"v_{p.lower()}") for p in "ABC"]
-    analog += [AnalogChannel(f"I{p}", i[p], "A", p, f"i_{p.lower()}") for p in "ABC"]
-    if sc.arc_current_channel:
-        analog.append(AnalogChannel("IARC", arc_i, "A", None, "arc_i"))
     digital = []
     if sc.pole_status:
         for p in "ABC":
@@ -192,6 +194,33 @@ def build(sc: Scenario) -> tuple[Record, dict[str, object]]:
                 if t_rc is not None:
                     closed[int(np.searchsorted(t, t_rc - sc.aux_lag_s)) :] = True
             digital.append(StatusChannel(f"52{p}", closed, p, f"pole_{p.lower()}"))
+    return _record(sc, t, v, i, digital, arc_i), truth
+
+
+def _record(
+    sc: Scenario,
+    t: np.ndarray,
+    v: dict[str, np.ndarray],
+    i: dict[str, np.ndarray],
+    digital: list[StatusChannel],
+    arc_i: np.ndarray,
+) -> Record:
+    n = t.shape[0]
+    rng = np.random.default_rng(sc.seed)
+    if sc.noise_snr_db is not None:
+        for p in "ABC":
+            v[p] = v[p] + rng.normal(scale=V_PH * 10 ** (-sc.noise_snr_db / 20), size=n)
+            i[p] = i[p] + rng.normal(scale=sc.load_a * 10 ** (-sc.noise_snr_db / 20), size=n)
+    if sc.quantise_bits is not None:
+        for key, full in (("v", 2.5 * np.sqrt(2) * V_PH), ("i", 2.5 * np.sqrt(2) * sc.fault_a)):
+            lsb = 2 * full / 2**sc.quantise_bits
+            table = v if key == "v" else i
+            for p in "ABC":
+                table[p] = np.round(table[p] / lsb) * lsb
+    analog = [AnalogChannel(f"V{p}", v[p], "V", p, f"v_{p.lower()}") for p in "ABC"]
+    analog += [AnalogChannel(f"I{p}", i[p], "A", p, f"i_{p.lower()}") for p in "ABC"]
+    if sc.arc_current_channel:
+        analog.append(AnalogChannel("IARC", arc_i, "A", None, "arc_i"))
     rec = Record(
         t_s=t,
         analog=tuple(analog),
@@ -200,9 +229,9 @@ def build(sc: Scenario) -> tuple[Record, dict[str, object]]:
         station="Ashcombe",
         device="demo recorder",
         start_ns=1_780_000_000_000_000_000,
-        trigger_ns=1_780_000_000_000_000_000 + int(tf * 1e9),
+        trigger_ns=1_780_000_000_000_000_000 + int(sc.inception_s * 1e9),
     )
-    return rec, truth
+    return rec
 
 
 def _burning(

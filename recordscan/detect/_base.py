@@ -20,10 +20,17 @@ from recordscan.signal.phasor import full_cycle_phasor, sliding_rms
 from recordscan.signal.sequence import superimposed
 from recordscan.signal.spectral import harmonic_ratio, highpass
 
-__all__ = ["HARMONICS", "Quantities", "where"]
+__all__ = ["HARMONICS", "Quantities", "finite_median", "where"]
 
 #: harmonic orders of the arc signature (those below 0.45·fs are used)
 HARMONICS: tuple[int, ...] = (3, 5, 7)
+
+
+def finite_median(x: np.ndarray) -> float:
+    """Median of the finite values (NaN when there are none), without a warning."""
+    x = np.asarray(x, dtype=np.float64)
+    x = x[np.isfinite(x)]
+    return float(np.median(x)) if x.size else float("nan")
 
 
 def where(record: Record) -> str:

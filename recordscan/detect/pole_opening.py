@@ -16,7 +16,7 @@ import numpy as np
 from recordscan.core.events import Event, Evidence
 from recordscan.core.record import Record
 from recordscan.core.roles import I_LINE, PHASES, POLE_CLOSED, TRIP, TRIP_3P
-from recordscan.detect._base import Quantities
+from recordscan.detect._base import Quantities, finite_median
 from recordscan.signal.onset import first_sustained, last_crossing_before
 
 __all__ = [
@@ -120,6 +120,23 @@ def current_quiet_threshold(
     return max(fraction * peak, 8.0 * sigma, 1e-9), peak
 
 
+def _zero_crossing(t_s: np.ndarray, i: np.ndarray, k: int, n_cycle: float) -> float:
+    """Instant the current reached zero, extrapolated from the last samples before ``k``.
+
+    ``k`` is the first sample of the interrupted stretch; the two samples before it are on
+    the falling flank of the last loop, whose straight-line zero is taken (at most
+    two samples or 1/20 cycle after ``k − 1``).
+    """
+    dt = float(t_s[k] - t_s[k - 1]) if k > 0 else 0.0
+    if k < 2:
+        return float(t_s[k]) - 0.5 * dt
+    y1, y2 = float(i[k - 2]), float(i[k - 1])
+    if y1 == y2 or np.sign(y1) != np.sign(y2) or abs(y2) > abs(y1):
+        return float(t_s[k]) - 0.5 * dt
+    frac = min(max(y2 / (y1 - y2), 0.0), max(2.0, n_cycle / 20.0))
+    return float(t_s[k - 1]) + frac * dt
+
+
 def _current_zero_opening(
     q: Quantities, phase: str, *, after_idx: int, quiet_cycles: float
 ) -> tuple[int, float] | None:
@@ -147,7 +164,8 @@ def detect_pole_openings(
     """First opening of each pole at or after ``after_s`` (normally the fault inception).
 
     From the phase current (the first run of at least ``quiet_cycles`` cycles below the
-    interruption threshold; its first sample is the current zero) when the current is
+    interruption threshold; the current zero is extrapolated from the samples just before
+    it) when the current is
     recorded, else from the pole-status channel. Phases that do not open are absent.
 
     Parameters
@@ -178,7 +196,7 @@ def detect_pole_openings(
         if cz is not None:
             k, thr = cz
             dt = 1.0 / q.segment_at(k).rate_hz
-            t = float(record.t_s[k]) - 0.5 * dt
+            t = _zero_crossing(record.t_s, q.values(I_LINE[p]), k, q.n_cycle(k))
             lag = None if t_dig is None else t_dig - t
             if lag is not None and abs(lag) > 5 * q.cycle_s:
                 lag = None  # the status change belongs to another operation
@@ -228,14 +246,15 @@ def infer_remote_opening(
     quantities: Quantities | None = None,
     max_stagger_s: float = 0.3,
     noise_factor: float = 8.0,
-    fraction: float = 0.03,
+    fraction: float = 0.1,
 ) -> Event | None:
     """Infer the far end's opening of ``phase`` from the healthy-phase currents.
 
-    After the local pole opens, the healthy-phase currents settle within a cycle; when the far
-    end then opens, the fault infeed stops and the one-cycle delta of the healthy-phase
-    currents rises again. The first such rise between one cycle and ``max_stagger_s`` after
-    the local opening is taken.
+    After the local pole opens, the healthy-phase current phasors settle within a cycle; when
+    the far end then opens, the fault infeed stops and their one-cycle change rises again
+    (above ``fraction`` of their level and ``noise_factor`` times the phasor noise). The
+    first such rise between 2.05 cycles and ``max_stagger_s`` after the local opening is
+    taken, walked back to where the change began.
 
     Returns
     -------
@@ -246,28 +265,30 @@ def infer_remote_opening(
     q = quantities or Quantities(record)
     k0 = q.idx(local_open_s)
     n = q.n_cycle(k0)
-    lo = k0 + int(np.ceil(1.15 * n))
+    lo = k0 + int(np.ceil(2.05 * n))  # the phasor change of the local opening is over
     hi = min(q.idx(local_open_s + max_stagger_s), q.seg_end(k0))
     if hi - lo < 2:
         return None
     best: tuple[int, int, str, float] | None = None
+    lag = max(1, round(n))
     for p in PHASES:
         if p == phase or q.values(I_LINE[p]) is None:
             continue
-        d = q.delta(I_LINE[p])
-        mag = q.magnitude(I_LINE[p])
-        sigma = q.noise(I_LINE[p])
-        level = float(np.nanmedian(mag[lo:hi])) if np.any(np.isfinite(mag[lo:hi])) else 0.0
-        thr = max(noise_factor * sigma, fraction * np.sqrt(2) * level, 1e-9)
+        ph = q.phasor(I_LINE[p])
+        d = np.full(ph.shape[0], np.nan)
+        d[lag:] = np.abs(ph[lag:] - ph[:-lag])  # one-cycle change of the phasor
+        level = finite_median(np.abs(ph[lo:hi]))
+        sigma = q.noise(I_LINE[p]) * np.sqrt(2.0 / n)
+        thr = max(noise_factor * sigma, fraction * level, 1e-9)
         with np.errstate(invalid="ignore"):
-            mask = np.abs(d) > thr
+            mask = d > thr
         mask[:lo] = False
         mask[hi:] = False
         cross = first_sustained(mask, n_hold=max(2, round(n / 8)), start=lo)
         if cross is None:
             continue
-        onset = max(last_crossing_before(np.abs(d), cross, level=thr / 3), lo)
-        ratio = float(np.nanmax(np.abs(d[cross : cross + max(2, round(n / 8))])) / thr)
+        onset = max(last_crossing_before(d, cross, level=thr / 3), lo)
+        ratio = float(np.max(d[cross : cross + max(2, round(n / 8))]) / thr)
         if best is None or onset < best[0]:
             best = (onset, cross, p, ratio)
     if best is None:

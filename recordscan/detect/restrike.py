@@ -140,7 +140,8 @@ def detect_restrikes(
         if post > 0.5 * pre:
             continue  # a gradual fall (a beat minimum, a zero crossing), not a collapse
         sig = trace.hratio[k_rel + half : min(k_rel + int(2.5 * n), trace.hratio.shape[0])]
-        if sig.size and not np.nanmax(np.concatenate([sig, [0.0]])) >= h_on:
+        sig = sig[np.isfinite(sig)]
+        if sig.size and not float(np.max(sig)) >= h_on:
             continue  # no arc signature after it
         quarter = max(1, int(n / 4))
         v_pk = float(np.max(absv[max(k_rel - quarter, 0) : k_rel]))

@@ -35,7 +35,7 @@ import numpy as np
 from recordscan.core.events import Event, Evidence
 from recordscan.core.record import Record
 from recordscan.core.roles import ARC_CURRENT, PHASES, V_LINE
-from recordscan.detect._base import Quantities, where
+from recordscan.detect._base import Quantities, finite_median, where
 from recordscan.errors import DetectionError
 from recordscan.signal.charfunc import robust_scale
 from recordscan.signal.onset import hysteresis_state, runs
@@ -189,7 +189,11 @@ def arc_trace(
         if p != phase and q.values(V_LINE[p]) is not None
     ]
     if others:
-        ref = np.nanmean(np.vstack(others), axis=0)
+        stack = np.vstack(others)
+        ok = np.isfinite(stack)
+        cnt = ok.sum(axis=0)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            ref = np.where(cnt > 0, np.where(ok, stack, 0.0).sum(axis=0) / cnt, np.nan)
     else:
         ref = np.full(b - a, np.nan)
     with np.errstate(invalid="ignore", divide="ignore"):
@@ -365,7 +369,7 @@ def detect_extinction(
     v = np.nan_to_num(q.values(role))
     if s.size == 0:
         lvl = tr.level_pu[valid]
-        if lvl.size and float(np.nanmedian(lvl)) < level_min:
+        if lvl.size and finite_median(lvl) < level_min:
             return ExtinctionResult(
                 None,
                 True,
@@ -413,8 +417,8 @@ def detect_extinction(
     before = tr.level_pu[max(kc - a - int(2 * n), 0) : max(kc - a - int(n), 1)]
     before = before[np.isfinite(before)]
     lvl_before = float(np.median(before)) if before.size else float("nan")
-    h_before = float(np.nanmedian(tr.hratio[tr.burning])) if s.size else float("nan")
-    h_after = float(np.nanmedian(tr.hratio[kc - a :])) if kc - a < tr.hratio.size else float("nan")
+    h_before = finite_median(tr.hratio[tr.burning]) if s.size else float("nan")
+    h_after = finite_median(tr.hratio[kc - a :]) if kc - a < tr.hratio.size else float("nan")
     conf = 0.9
     if np.isfinite(lvl_after) and lvl_after < level_min:
         warns.append(
