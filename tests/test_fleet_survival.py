@@ -185,3 +185,34 @@ def test_matches_a_plain_loop_of_the_product_limit_definition(pairs: list) -> No
         expected_var.append(s * s * gw if s > 0 else 0.0)
     np.testing.assert_allclose(km.survival, expected_s, rtol=1e-12, atol=0)
     np.testing.assert_allclose(km.greenwood_var, expected_var, rtol=1e-12, atol=0)
+
+
+@pytest.mark.bench
+def test_bench_kaplan_meier_against_the_plain_loop() -> None:
+    # Ratio of the vectorised estimator to the definition as a Python loop, same data.
+    import time
+
+    rng = np.random.default_rng(3)
+    x = np.round(rng.exponential(0.3, 3000), 3)
+    c = np.round(rng.uniform(0, 1.5, x.size), 3)
+    t, d = np.minimum(x, c), x <= c
+
+    def loop() -> list[float]:
+        s, out = 1.0, []
+        for tj in np.unique(t[d]):
+            n_j = int((t >= tj).sum())
+            d_j = int((d & (t == tj)).sum())
+            s *= 1.0 - d_j / n_j
+            out.append(s)
+        return out
+
+    t0 = time.perf_counter()
+    ref = loop()
+    t1 = time.perf_counter()
+    for _ in range(20):
+        km = kaplan_meier(t, d)
+    t2 = time.perf_counter()
+    np.testing.assert_allclose(km.survival, ref, rtol=1e-12)
+    ratio = (t1 - t0) / ((t2 - t1) / 20)
+    print(f"\nkaplan_meier n=3000: {ratio:.0f}× faster than the per-time loop")
+    assert ratio > 5
