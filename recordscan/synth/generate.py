@@ -674,6 +674,10 @@ def _truth(
         ),
         "recovery_voltage_rms_v": getattr(tr, "recovery_voltage_rms_v", None) if chain else None,
         "primary_fault_current_rms_a": getattr(tr, "primary_fault_current_rms_a", None),
+        "pole_operations": [
+            {"kind": str(kind_), "t_s": float(t) - t0, "end": ENDS[int(end)], "phase": str(ph)}
+            for kind_, t, end, ph in (getattr(tr, "pole_operations", ()) or ())
+        ],
         "reclose_command_s": {e: _rel(timing.reclose_command_s[e], t0) for e in ENDS},
         "reclose_s": reclose,
         "outcome": outcome,
