@@ -17,7 +17,9 @@ Event log rows are ``(kind, t_s, index, extra)`` with kinds listed in :data:`LOG
 
 from __future__ import annotations
 
+import hashlib
 import math
+from pathlib import Path
 
 import numba
 import numpy as np
@@ -489,3 +491,33 @@ def run_kernel(
                     arc_state[k, S_MODE] = 1.0
             return n + 1
     return n_total
+
+
+def _drop_stale_cache() -> None:
+    """Forget the on-disk compiled kernel when ``arc.py`` has changed since it was cached.
+
+    numba keys a cached function on its own source file only, but the kernel has the arc
+    functions (and their module constants) compiled into it; a hash of ``arc.py`` kept
+    beside the cache makes an edited arc model recompile the kernel.
+    """
+    cache = getattr(run_kernel, "_cache", None)
+    cache_dir = getattr(cache, "_cache_path", None)
+    if cache is None or cache_dir is None or not hasattr(cache, "flush"):
+        return
+    digest = hashlib.sha256(Path(_arc.__file__).read_bytes()).hexdigest()
+    stamp = Path(cache_dir) / "kernel.run_kernel.arc-sha256"
+    try:
+        previous = stamp.read_text(encoding="ascii").strip()
+    except OSError:
+        previous = ""
+    if previous == digest:
+        return
+    try:
+        cache.flush()
+        stamp.parent.mkdir(parents=True, exist_ok=True)
+        stamp.write_text(digest, encoding="ascii")
+    except OSError:
+        return  # a read-only cache location: numba then compiles in memory each session
+
+
+_drop_stale_cache()
