@@ -126,3 +126,32 @@ def test_fault_close_to_an_end_keeps_the_closed_form() -> None:
     coef, *_ = np.linalg.lstsq(a, res.arc_i_a, rcond=None)
     closed = w * (C1 - C0) / 3 * 400e3 / math.sqrt(3) * 100e3
     assert math.hypot(coef[0], coef[1]) / math.sqrt(2) == pytest.approx(closed, rel=0.01)
+
+
+def test_lossy_bergeron_steady_state_is_its_ladder_phasor() -> None:
+    # The lumped-loss Bergeron companion (Dommel, EMTP Theory Book, 1992, 4.2.2.4) is the
+    # exact time-domain form of R/4 – lossless half – R/2 – lossless half – R/4. Started
+    # from the phasor solution of that ladder (ABCD chain, derived), a loaded line must stay
+    # in its steady state: the first and the tenth cycle have the same phasors.
+    spec = EventSpec(
+        line=line(300e3), frequency_hz=F_HZ, local=SRC,
+        remote=dataclasses.replace(SRC, angle_deg=-20.0),
+        reactor_local=None, reactor_remote=None,
+        breaker_local=BreakerSpec(), breaker_remote=BreakerSpec(),
+        fault=None, t_end_s=0.2, line_model="travelling_wave",
+    )  # fmt: skip
+    res = simulate_event(spec)
+    w = 2 * math.pi * F_HZ
+    per = round(1 / (F_HZ * spec.dt_s))
+
+    def phasor(x: np.ndarray, sl: slice) -> complex:
+        t = res.t_s[sl]
+        a = np.column_stack([np.cos(w * t), -np.sin(w * t), np.ones_like(t)])
+        c, *_ = np.linalg.lstsq(a, x[sl], rcond=None)
+        return complex(c[0], c[1])
+
+    first, last = slice(0, per), slice(9 * per, 10 * per)
+    for x in (res.v_line_v[1, 0], res.i_line_a[0, 0], res.i_line_a[1, 2]):
+        p0, p9 = phasor(x, first), phasor(x, last)
+        assert abs(p9 - p0) < 1e-6 * abs(p0)
+    assert abs(phasor(res.i_line_a[0, 0], first)) > 1000.0  # a real load flow
