@@ -153,5 +153,5 @@ def test_lossy_bergeron_steady_state_is_its_ladder_phasor() -> None:
     first, last = slice(0, per), slice(9 * per, 10 * per)
     for x in (res.v_line_v[1, 0], res.i_line_a[0, 0], res.i_line_a[1, 2]):
         p0, p9 = phasor(x, first), phasor(x, last)
-        assert abs(p9 - p0) < 1e-6 * abs(p0)
+        assert abs(p9 - p0) < 1e-5 * abs(p0)
     assert abs(phasor(res.i_line_a[0, 0], first)) > 1000.0  # a real load flow
