@@ -208,3 +208,27 @@ def test_default_arc_extinguishes_within_usual_dead_times() -> None:
     deion_s = (10.5 + 400 / 34.5) / 60.0
     assert deion_s == pytest.approx(0.3682, abs=1e-4)
     assert deion_s < burn_s < 1.5
+
+
+def test_arc_in_the_network_follows_the_arc_model() -> None:
+    # The arc module is the reference implementation of the Kizilcay-form model: fed with the
+    # current the network computed, its zero-order-hold recursion (the arithmetic of
+    # arc_step_scalar) must give the network's conductance sample for sample.
+    from recordscan.physics.arc import simulate_current_driven
+
+    spec = event(fault=arc_fault(), trip_l={"A": 0.1}, trip_r={"A": 0.105}, t_end_s=1.0)
+    res = simulate_event(spec)
+    tr = res.truth
+    assert tr.extinction_s is not None
+    burning = res.arc_g_siemens > 0
+    sel = (res.t_s > tr.secondary_arc_start_s + 0.005) & burning
+    idx = np.flatnonzero(sel)
+    idx = idx[: np.argmax(np.diff(idx) > 1) or idx.size]  # first burning stretch
+    ref = simulate_current_driven(
+        res.t_s[idx], res.arc_i_a[idx], params=spec.fault.secondary,
+        law=spec.fault.elongation, g0_siemens=float(res.arc_g_siemens[idx[0]]),
+        t_start_s=tr.secondary_arc_start_s, hold="zero",
+    )  # fmt: skip
+    np.testing.assert_allclose(ref.l_m, res.arc_l_m[idx], rtol=1e-9)
+    np.testing.assert_allclose(ref.g_siemens, res.arc_g_siemens[idx], rtol=1e-7, atol=1e-12)
+    assert res.t_s[idx[-1]] > tr.secondary_arc_start_s + 0.3
