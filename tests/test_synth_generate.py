@@ -287,3 +287,31 @@ def test_staged_test_arc_channels() -> None:
         rms_rec = float(np.sqrt(np.mean(ch.values[win] ** 2)))
         rms_raw = float(np.sqrt(np.mean(np.asarray(x)[raw_win] ** 2)))
         assert rms_rec == pytest.approx(rms_raw, rel=0.03)
+
+
+def test_options_load_current_travelling_wave_bus_vt_saturation() -> None:
+    """Load given as a current: the pre-fault phase current is the asked one (derived from
+    the series impedance of sources and line, charging neglected → within 3 %)."""
+    ev = simulate(
+        _scenario(
+            sources={"load_current_a": 800.0},
+            simulation={"line_model": "travelling_wave", "settle_s": 0.05},
+            instruments={
+                "ct_saturation": True,
+                "bus_vt": True,
+                "vt": "magnetic",
+                "snr_db": 40.0,
+                "record_length_s": 0.4,
+            },
+            breaker={"reclose": False},
+            output={"ends": ["local"]},
+        )
+    )
+    rec = ev.records["local"]
+    for role in ("vbus_a", "vbus_b", "vbus_c"):
+        assert role in rec.roles
+    pre = rec.t_s < ev.truth["fault_inception_s"] - 0.01
+    for role in ("i_a", "i_b", "i_c"):
+        rms = float(np.sqrt(np.mean(rec.analog_by_role(role).values[pre] ** 2)))
+        assert rms == pytest.approx(800.0, rel=0.03)
+    assert ev.truth["outcome"] == "no_reclose"

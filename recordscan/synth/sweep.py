@@ -101,7 +101,7 @@ class SweepRanges:
     #: secondary-arc voltage gradients of 1.5–3 kV/m at tens of amperes are typical
     #: (common practice); higher gradients put the arc out sooner
     u0_v_per_m: tuple[float, float] = (1200.0, 3500.0)
-    tau0_s: tuple[float, float] = (0.3e-3, 2.0e-3)
+    tau0_s: tuple[float, float] = (0.6e-3, 2.0e-3)
     #: log-uniform extinction threshold; higher values give more extinctions and restrikes
     g_min_siemens_per_m: tuple[float, float] = (30e-6, 5e-4)
     alpha: tuple[float, float] = (-0.6, -0.3)
@@ -109,7 +109,7 @@ class SweepRanges:
     elongation: tuple[str, ...] = ("johns", "johns", "linear")
     elongation_speed_m_per_s: tuple[float, float] = (5.0, 25.0)
     #: log-uniform; lower values recover the gap slower and give more restrikes
-    recovery_rate_scale: tuple[float, float] = (0.1, 2.0)
+    recovery_rate_scale: tuple[float, float] = (0.25, 2.0)
     #: single-pole dead time (never below the deionisation minimum of the voltage class);
     #: the shorter ones often meet a still-burning arc
     dead_time_s: tuple[float, float] = (0.45, 1.6)
