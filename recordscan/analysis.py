@@ -538,6 +538,18 @@ def analyse(
             **common,
         )
     local = openings[p]
+    # ---------------------------------------------------------------- reclose
+    load_a = None if pre is None else pre.i_rms_a.get(p)
+    v_ph = None if pre is None else pre.v_rms_v.get(p)
+    rc = detect_reclose(
+        record,
+        phase=p,
+        open_s=local.t_s,
+        fault_current_rms_a=i_fault,
+        load_current_rms_a=load_a,
+        v_phase_rms_v=v_ph,
+        quantities=q,
+    )
     # ---------------------------------------------------------------- far end
     remote_ev: Event | None = None
     remote_src: str | None = None
@@ -576,67 +588,12 @@ def analyse(
             phase=p,
             local_open_s=local.t_s,
             quantities=q,
+            until_s=rc.reclose_s,
             max_stagger_s=opts.max_stagger_s,
         )
         remote_src = None if remote_ev is None else "inferred"
-    # ---------------------------------------------------------------- reclose
-    load_a = None if pre is None else pre.i_rms_a.get(p)
-    v_ph = None if pre is None else pre.v_rms_v.get(p)
-    rc = detect_reclose(
-        record,
-        phase=p,
-        open_s=local.t_s,
-        fault_current_rms_a=i_fault,
-        load_current_rms_a=load_a,
-        v_phase_rms_v=v_ph,
-        quantities=q,
-    )
     arc_start = local.t_s if remote_ev is None else max(local.t_s, remote_ev.t_s)
     until = rc.reclose_s if rc.reclose_s is not None else float(record.t_s[-1])
-    # ---------------------------------------------------------------- secondary arc
-    ext: ExtinctionResult | None = None
-    restrikes: list[Event] = []
-    try:
-        tr = arc_trace(
-            record,
-            phase=p,
-            start_s=arc_start,
-            until_s=until,
-            quantities=q,
-            h_on=opts.h_on,
-            h_off=opts.h_off,
-        )
-        restrikes = detect_restrikes(
-            record,
-            trace=tr,
-            quantities=q,
-            excursion_factor=opts.excursion_factor,
-            min_recovery_cycles=opts.min_recovery_cycles,
-            h_on=opts.h_on,
-        )
-        # the arc burns again after each restrike, even if too briefly for the signature
-        tr = with_burning_after(tr, [q.idx(r.t_s) for r in restrikes], q.idx(until))
-        ext = detect_extinction(
-            record,
-            phase=p,
-            arc_start_s=arc_start,
-            until_s=until,
-            quantities=q,
-            h_on=opts.h_on,
-            h_off=opts.h_off,
-            level_min=opts.level_min,
-            trace=tr,
-        )
-        warns += list(ext.warnings)
-        if ext.extinction_s is not None:
-            restrikes = [r for r in restrikes if r.t_s < ext.extinction_s]
-    except DetectionError as exc:
-        if q.values(ARC_CURRENT) is None:
-            warns.append(str(exc))
-        else:
-            ext = detect_extinction(
-                record, phase=p, arc_start_s=arc_start, until_s=until, quantities=q
-            )
     # ---------------------------------------------------------------- location
     loc: FaultLocation | None = None
     if ld is not None:
@@ -687,6 +644,54 @@ def analyse(
             est_v, est_a = cp.recovery_voltage_rms_v, cp.secondary_arc_current_rms_a
         except RecordScanError as exc:
             warns.append(f"line estimate unavailable: {exc}")
+    level_min = opts.level_min
+    if est_v is not None and ld is not None:
+        # a recovered phase well below the expected recovery voltage is no recovery
+        level_min = float(np.clip(0.4 * est_v / ld.v_phase_v, 0.01, 0.1))
+    # ---------------------------------------------------------------- secondary arc
+    ext: ExtinctionResult | None = None
+    restrikes: list[Event] = []
+    try:
+        tr = arc_trace(
+            record,
+            phase=p,
+            start_s=arc_start,
+            until_s=until,
+            quantities=q,
+            h_on=opts.h_on,
+            h_off=opts.h_off,
+        )
+        restrikes = detect_restrikes(
+            record,
+            trace=tr,
+            quantities=q,
+            excursion_factor=opts.excursion_factor,
+            min_recovery_cycles=opts.min_recovery_cycles,
+            h_on=opts.h_on,
+        )
+        # the arc burns again after each restrike, even if too briefly for the signature
+        tr = with_burning_after(tr, [q.idx(r.t_s) for r in restrikes], q.idx(until))
+        ext = detect_extinction(
+            record,
+            phase=p,
+            arc_start_s=arc_start,
+            until_s=until,
+            quantities=q,
+            h_on=opts.h_on,
+            h_off=opts.h_off,
+            level_min=level_min,
+            trace=tr,
+        )
+        warns += list(ext.warnings)
+        if ext.extinction_s is not None:
+            restrikes = [r for r in restrikes if r.t_s < ext.extinction_s]
+    except DetectionError as exc:
+        if q.values(ARC_CURRENT) is None:
+            warns.append(str(exc))
+        else:
+            ext = detect_extinction(
+                record, phase=p, arc_start_s=arc_start, until_s=until, quantities=q
+            )
     rv = None
     if ext is not None and ext.extinction_s is not None:
         rv = measure_recovery_voltage(

@@ -16,8 +16,8 @@ import numpy as np
 from recordscan.core.events import Event, Evidence
 from recordscan.core.record import Record
 from recordscan.core.roles import I_LINE, PHASES, POLE_CLOSED, TRIP, TRIP_3P
-from recordscan.detect._base import Quantities, finite_median
-from recordscan.signal.onset import first_sustained, last_crossing_before
+from recordscan.detect._base import Quantities
+from recordscan.signal.onset import first_sustained
 
 __all__ = [
     "PoleOpening",
@@ -244,71 +244,77 @@ def infer_remote_opening(
     phase: str,
     local_open_s: float,
     quantities: Quantities | None = None,
+    until_s: float | None = None,
     max_stagger_s: float = 0.3,
     noise_factor: float = 8.0,
-    fraction: float = 0.1,
+    fraction: float = 0.05,
 ) -> Event | None:
     """Infer the far end's opening of ``phase`` from the healthy-phase currents.
 
-    After the local pole opens, the healthy-phase current phasors settle within a cycle; when
-    the far end then opens, the fault infeed stops and their one-cycle change rises again
-    (above ``fraction`` of their level and ``noise_factor`` times the phasor noise). The
-    first such rise between 2.05 cycles and ``max_stagger_s`` after the local opening is
-    taken, walked back to where the change began.
+    Once both ends of the faulted phase are open, the healthy-phase current phasors settle to
+    their final (load and coupling) state; the last change before it is the later of the two
+    openings. The final state is taken ``max_stagger_s`` + 1.5 cycles after the local opening
+    (or just before ``until_s``, the reclose); each healthy phase's settling instant — the
+    last sample whose phasor differs from the final one by more than ``fraction`` of it (and
+    ``noise_factor`` times the phasor noise) — minus one cycle (the DFT window) is the far-end
+    opening.
 
     Returns
     -------
     Event or None
-        ``kind="pole_open_remote"``; None when no second disturbance is found (the far end
-        opened within about a cycle of the local end, or before it).
+        ``kind="pole_open_remote"``; None when the settling instant is not later than the
+        local opening (the far end opened first or with it) or the record is too short.
     """
     q = quantities or Quantities(record)
     k0 = q.idx(local_open_s)
     n = q.n_cycle(k0)
-    lo = k0 + int(np.ceil(2.05 * n))  # the phasor change of the local opening is over
-    hi = min(q.idx(local_open_s + max_stagger_s), q.seg_end(k0))
-    if hi - lo < 2:
+    k_fin = k0 + int(np.ceil(max_stagger_s * q.f_hz * n + 1.5 * n))
+    k_fin = min(k_fin, q.seg_end(k0) - 1)
+    if until_s is not None:
+        k_fin = min(k_fin, q.idx(until_s) - 1)
+    if k_fin - k0 < 3 * n:
         return None
-    best: tuple[int, int, str, float] | None = None
-    lag = max(1, round(n))
+    best: tuple[int, str, float] | None = None
+    lo = k0 + int(np.ceil(n))
     for p in PHASES:
         if p == phase or q.values(I_LINE[p]) is None:
             continue
         ph = q.phasor(I_LINE[p])
-        d = np.full(ph.shape[0], np.nan)
-        d[lag:] = np.abs(ph[lag:] - ph[:-lag])  # one-cycle change of the phasor
-        level = finite_median(np.abs(ph[lo:hi]))
-        sigma = q.noise(I_LINE[p]) * np.sqrt(2.0 / n)
-        thr = max(noise_factor * sigma, fraction * level, 1e-9)
-        with np.errstate(invalid="ignore"):
-            mask = d > thr
-        mask[:lo] = False
-        mask[hi:] = False
-        cross = first_sustained(mask, n_hold=max(2, round(n / 8)), start=lo)
-        if cross is None:
+        tail = ph[k_fin - int(n / 2) : k_fin + 1]
+        tail = tail[np.isfinite(tail)]
+        if tail.size == 0:
             continue
-        onset = max(last_crossing_before(d, cross, level=thr / 3), lo)
-        ratio = float(np.max(d[cross : cross + max(2, round(n / 8))]) / thr)
-        if best is None or onset < best[0]:
-            best = (onset, cross, p, ratio)
-    if best is None:
+        final = complex(np.median(tail.real), np.median(tail.imag))
+        d = np.abs(ph[lo : k_fin + 1] - final)
+        sigma = q.noise(I_LINE[p]) * np.sqrt(2.0 / n)
+        thr = max(noise_factor * sigma, fraction * abs(final), 1e-9)
+        above = np.flatnonzero(~(d <= thr))
+        if above.size == 0:
+            continue
+        settle = lo + int(above[-1]) + 1
+        k_r = settle - round(n)
+        step = float(d[0]) / thr
+        if best is None or k_r > best[0]:
+            best = (k_r, p, step)
+    if best is None or best[0] <= k0 + 0.1 * n:
         return None
-    onset, _, p, ratio = best
-    t = float(record.t_s[onset])
+    k_r, p, step = best
+    t = float(record.t_s[k_r])
     return Event(
         kind="pole_open_remote",
         t_s=t,
         uncertainty_s=0.25 * q.cycle_s,
-        method="healthy-phase current disturbance after the local opening",
-        confidence=float(min(0.9, 0.4 + 0.1 * ratio)),
+        method="healthy-phase currents settled after the local opening",
+        confidence=0.7,
         evidence=Evidence(
             summary=(
-                f"phase {p} current changed again {(t - local_open_s) * 1e3:.1f} ms after the "
-                f"local opening of phase {phase}: far end taken as open"
+                f"phase {p} current reached its final state one cycle after "
+                f"{(t - local_open_s) * 1e3:.1f} ms past the local opening of phase {phase}: "
+                "far end taken as open then"
             ),
-            quantities={"stagger_s": t - local_open_s, "threshold_ratio": ratio},
+            quantities={"stagger_s": t - local_open_s, "change_over_threshold": step},
             channels=(q.channel_name(I_LINE[p]),),
         ),
-        params={"max_stagger_s": max_stagger_s, "noise_factor": noise_factor},
+        params={"max_stagger_s": max_stagger_s, "fraction": fraction},
         phase=phase,
     )

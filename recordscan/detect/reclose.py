@@ -16,7 +16,7 @@ from recordscan.core.events import Event, Evidence
 from recordscan.core.record import Record
 from recordscan.core.roles import I_LINE, PHASES, POLE_CLOSED, V_LINE
 from recordscan.detect._base import Quantities
-from recordscan.signal.onset import first_sustained
+from recordscan.signal.onset import first_sustained, last_crossing_before
 
 __all__ = ["RecloseResult", "detect_reclose"]
 
@@ -46,14 +46,6 @@ class RecloseResult:
     def reclose_s(self) -> float | None:
         """Reclose instant."""
         return None if self.reclose is None else self.reclose.t_s
-
-
-def _first_active(q: Quantities, role: str, *, start: int, hold: int, thr: float) -> int | None:
-    x = q.values(role)
-    if x is None:
-        return None
-    active = np.abs(np.nan_to_num(x)) > thr
-    return first_sustained(active, n_hold=hold, start=start)
 
 
 def detect_reclose(
@@ -105,11 +97,16 @@ def detect_reclose(
     chan = ""
     st = q.status(POLE_CLOSED[phase])
     if q.values(role_i) is not None and start < record.n_samples:
-        sigma = q.noise(role_i)
-        floor = 0.01 * (fault_current_rms_a or 0.0) * np.sqrt(2)
-        thr = max(10.0 * sigma, floor, 1e-9)
-        k_rc = _first_active(q, role_i, start=start, hold=max(3, round(n / 4)), thr=thr)
-        method, chan = "phase current returned", q.channel_name(role_i)
+        # the phasor rejects the decaying DC a CT leaves after the interruption
+        mag = q.magnitude(role_i)
+        sigma = q.noise(role_i) * np.sqrt(2.0 / n)
+        thr = max(10.0 * sigma, 0.002 * (fault_current_rms_a or 0.0), 1e-9)
+        with np.errstate(invalid="ignore"):
+            active = mag > thr
+        cross = first_sustained(active, n_hold=max(3, round(n / 4)), start=start + int(n))
+        if cross is not None:
+            k_rc = last_crossing_before(mag, cross, level=max(3.0 * sigma, 0.1 * thr))
+            method, chan = "phase current returned", q.channel_name(role_i)
     if k_rc is None and st is not None:
         closed = np.asarray(st, dtype=bool)
         hits = np.flatnonzero(closed[start:])

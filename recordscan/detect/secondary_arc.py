@@ -202,7 +202,7 @@ def arc_trace(
     burning &= np.isfinite(h)
     s, e = runs(burning)
     for si, ei in zip(s, e, strict=True):
-        if ei - si < min_burn_cycles * n:
+        if si > 0 and ei - si < min_burn_cycles * n:  # a run from the start is the arc itself
             burning[si:ei] = False
     amp = None
     if np.any(burning):
@@ -394,9 +394,32 @@ def detect_extinction(
     lo = max(a - int(np.ceil(n)), seg_lo)
     ref = _refine(v, t, kc=kc, n=n, f_hz=q.f_hz, lo=lo, hi=b, arc_amp=arc_amp)
     dt = 1.0 / q.segment_at(kc).rate_hz
+    m = q.hratio_cycles(q.segment_at(kc).rate_hz)
+    if ref is not None and not kc - m * n - 2 <= ref[0] <= kc:
+        # the harmonic window still held arc samples at kc: the fit found a departure
+        # that is not the extinction (recovery voltage hardly larger than the arc voltage)
+        ref = None
+    if ref is None and s.size:
+        # fall back on the harmonic ratio: it falls from its burning level to about half
+        # when the window holds about half recovery (the larger the recovery, the sooner)
+        h_b = finite_median(tr.hratio[tr.burning])
+        seg_h = tr.hratio[max(kc - a - int(m * n) - 2, 0) : kc - a + 1]
+        below = np.flatnonzero(~(seg_h >= 0.5 * h_b))
+        if below.size:
+            k_half = max(kc - int(m * n) - 2, a) + int(below[0])
+            k_ext = max(k_half - int(m * n / 4), lo)
+            ref_h = (k_ext, float("nan"))
+        else:
+            ref_h = None
+    else:
+        ref_h = None
     if ref is not None:
         k_ext, thr = ref
         unc = max(dt, 0.05 * q.cycle_s)
+    elif ref_h is not None:
+        k_ext, thr = ref_h
+        unc = 0.25 * m * q.cycle_s
+        warns.append("extinction instant from the fall of the harmonic ratio (not refined)")
     else:
         k_ext, thr = max(kc - int(n / 2), lo), float("nan")
         unc = 0.5 * q.cycle_s
@@ -421,13 +444,21 @@ def detect_extinction(
     h_after = finite_median(tr.hratio[kc - a :]) if kc - a < tr.hratio.size else float("nan")
     conf = 0.9
     if np.isfinite(lvl_after) and lvl_after < level_min:
-        warns.append(
-            f"after the arc signature ended the open phase stayed at {lvl_after:.1%} of the "
-            "healthy-phase voltage: check for a bolted fault or a highly compensated line"
+        return ExtinctionResult(
+            None,
+            True,
+            observed,
+            arc_start_s,
+            intervals,
+            tr.arc_amplitude_v,
+            (
+                f"the arc signature ended but the open phase stayed at {lvl_after:.1%} of the "
+                "healthy-phase voltage: a bolted (permanent) fault, or a very well compensated "
+                "line; no extinction reported",
+            ),
         )
-        conf = 0.5
     if ref is None:
-        conf = min(conf, 0.6)
+        conf = min(conf, 0.6 if ref_h is None else 0.75)
     summary = (
         f"arc-voltage harmonic ratio fell from {h_before:.2f} to {h_after:.2f}; open-phase "
         f"voltage went from {lvl_before:.1%} to {lvl_after:.1%} of the healthy phases at "
@@ -470,11 +501,12 @@ def _from_arc_current(
     k0 = q.idx(start_s)
     k1 = record.n_samples if until_s >= t[-1] else q.idx(until_s)
     n = q.n_cycle(k0)
+    k0 = min(k0 + int(np.ceil(n)), k1)  # past the primary arc's last loop
     seg = i[k0:k1]
     if seg.size < 2:
         return ExtinctionResult(None, True, float(until_s), start_s)
     sigma = q.noise(ARC_CURRENT)
-    peak = float(np.max(np.abs(seg)))
+    peak = float(np.percentile(np.abs(seg), 99))
     thr = max(8.0 * sigma, 0.02 * peak, 1e-6)
     active = np.abs(seg) > thr
     observed = float(t[k1 - 1])
