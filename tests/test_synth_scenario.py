@@ -18,8 +18,8 @@ from recordscan.synth.scenario import (
     load_scenario,
     min_deionisation_time_s,
     parse_scenario,
-    scenario_to_toml,
 )
+from recordscan.synth.scenario_toml import scenario_to_toml
 
 REPO = Path(__file__).resolve().parents[1]
 LINES = REPO / "sample_records" / "lines"

@@ -14,7 +14,8 @@ from pathlib import Path
 import pytest
 
 from recordscan.errors import FormatError, ModelError
-from recordscan.synth.scenario import load_scenario, scenario_to_dict, scenario_to_toml
+from recordscan.synth.scenario import load_scenario
+from recordscan.synth.scenario_toml import scenario_to_dict, scenario_to_toml
 from recordscan.synth.sweep import (
     LINE_CLASSES,
     SweepRanges,

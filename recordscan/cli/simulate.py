@@ -82,7 +82,7 @@ def simulate(
     from recordscan.synth import load_scenario
     from recordscan.synth.generate import simulate as run
     from recordscan.synth.generate import write_event
-    from recordscan.synth.scenario import scenario_to_toml
+    from recordscan.synth.scenario_toml import scenario_to_toml
     from recordscan.synth.sweep import draw_scenarios, load_ranges
 
     if sweep_n is not None:
