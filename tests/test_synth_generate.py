@@ -315,3 +315,13 @@ def test_options_load_current_travelling_wave_bus_vt_saturation() -> None:
         rms = float(np.sqrt(np.mean(rec.analog_by_role(role).values[pre] ** 2)))
         assert rms == pytest.approx(800.0, rel=0.03)
     assert ev.truth["outcome"] == "no_reclose"
+
+
+def test_write_event_refuses_impossible_flavours(tmp_path: Path, event: SimulatedEvent) -> None:
+    from recordscan.errors import FormatError
+
+    with pytest.raises(FormatError, match="1999"):
+        write_event(event, tmp_path, revision="1999", data_format="FLOAT32")
+    with pytest.raises(FormatError, match="cff"):
+        write_event(event, tmp_path, revision="1999", cff=True)
+    assert not any(tmp_path.iterdir())

@@ -25,7 +25,7 @@ from typing import Any
 import numpy as np
 
 from recordscan.core.record import Record
-from recordscan.errors import ModelError
+from recordscan.errors import FormatError, ModelError
 from recordscan.synth.recorder import ENDS, PHASES, Timing, record_end
 from recordscan.synth.scenario import Scenario, default_dead_time_s, load_scenario
 from recordscan.synth.scenario_toml import scenario_to_dict
@@ -520,6 +520,15 @@ def write_event(
     rev = revision or o.revision
     fmt = (data_format or o.data_format).upper()
     use_cff = o.cff if cff is None else cff
+    if rev not in ("1999", "2013"):
+        raise FormatError(f"COMTRADE revision {rev!r}: use 1999 or 2013")
+    if fmt not in ("ASCII", "BINARY", "BINARY32", "FLOAT32"):
+        raise FormatError(f"COMTRADE data format {fmt!r}: use ASCII, BINARY, BINARY32 or FLOAT32")
+    if rev == "1999" and (use_cff or fmt not in ("ASCII", "BINARY")):
+        raise FormatError(
+            "COMTRADE 1999 has ASCII and BINARY .cfg/.dat only; use revision 2013 for "
+            f"{'.cff' if use_cff else fmt}"
+        )
     written: list[Path] = []
     files: dict[str, list[str]] = {}
     for end, rec in event.records.items():
