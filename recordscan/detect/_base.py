@@ -16,9 +16,10 @@ from recordscan.core.record import Record, Segment
 from recordscan.core.roles import I_LINE, PHASES, POLE_CLOSED, V_LINE
 from recordscan.errors import DetectionError
 from recordscan.signal.charfunc import robust_scale
+from recordscan.signal.filters import highpass
 from recordscan.signal.phasor import full_cycle_phasor, sliding_rms
 from recordscan.signal.sequence import superimposed
-from recordscan.signal.spectral import harmonic_ratio, highpass
+from recordscan.signal.spectral import harmonic_ratio
 
 __all__ = ["HARMONICS", "Quantities", "finite_median", "where"]
 

@@ -1,11 +1,18 @@
-"""Small filters: decaying-DC (mimic) removal, moving average, running extremes."""
+"""Small filters: decaying-DC (mimic) removal, a zero-phase high-pass, moving average,
+running extremes."""
 
 from __future__ import annotations
 
 import numpy as np
-from scipy.ndimage import maximum_filter1d, minimum_filter1d
+from numpy.lib.stride_tricks import sliding_window_view
 
-__all__ = ["mimic_filter", "moving_average", "running_max", "running_min"]
+__all__ = [
+    "highpass",
+    "mimic_filter",
+    "moving_average",
+    "running_max",
+    "running_min",
+]
 
 
 def mimic_filter(x: np.ndarray, *, tau_s: float, fs_hz: float, f_hz: float) -> np.ndarray:
@@ -49,15 +56,36 @@ def moving_average(x: np.ndarray, n: int) -> np.ndarray:
     return (c[idx] - c[lo]) / (idx - lo)
 
 
-def running_max(x: np.ndarray, n: int) -> np.ndarray:
-    """Causal running maximum over the last ``n`` samples (including the current one)."""
+def _running(x: np.ndarray, n: int, fn: str) -> np.ndarray:
     x = np.asarray(x, dtype=np.float64)
     n = max(1, int(n))
-    return maximum_filter1d(x, size=n, origin=(n - 1) // 2, mode="nearest")
+    if x.size == 0 or n == 1:
+        return x.copy()
+    pad = np.concatenate((np.full(n - 1, x[0]), x))
+    win = sliding_window_view(pad, n)
+    return win.max(axis=1) if fn == "max" else win.min(axis=1)
+
+
+def running_max(x: np.ndarray, n: int) -> np.ndarray:
+    """Causal running maximum over the last ``n`` samples (including the current one)."""
+    return _running(x, n, "max")
 
 
 def running_min(x: np.ndarray, n: int) -> np.ndarray:
     """Causal running minimum over the last ``n`` samples (including the current one)."""
+    return _running(x, n, "min")
+
+
+def highpass(x: np.ndarray, *, fs_hz: float, cutoff_hz: float, order: int = 4) -> np.ndarray:
+    """Zero-phase Butterworth high-pass (forward and backward; gain ``|H|²`` of one pass).
+
+    Returns a copy of ``x`` when it is too short for the filter's edge padding.
+    """
+    from scipy.signal import butter, sosfiltfilt
+
     x = np.asarray(x, dtype=np.float64)
-    n = max(1, int(n))
-    return minimum_filter1d(x, size=n, origin=(n - 1) // 2, mode="nearest")
+    sos = butter(order, cutoff_hz, btype="highpass", fs=fs_hz, output="sos")
+    pad = 3 * (2 * sos.shape[0] + 1)
+    if x.shape[0] <= pad:
+        return x.copy()
+    return sosfiltfilt(sos, x)

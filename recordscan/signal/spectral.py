@@ -8,6 +8,7 @@ harmonics of amplitude 1/k of the fundamental and a total harmonic distortion of
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
@@ -20,7 +21,6 @@ __all__ = [
     "fit_beat",
     "harmonic_ratio",
     "harmonic_spectrum",
-    "highpass",
     "thd",
 ]
 
@@ -176,21 +176,6 @@ def harmonic_ratio(
     return r
 
 
-def highpass(x: np.ndarray, *, fs_hz: float, cutoff_hz: float, order: int = 4) -> np.ndarray:
-    """Zero-phase Butterworth high-pass (forward and backward; gain |H|² of one pass).
-
-    Returns ``x`` unchanged when it is too short for the filter's edge padding.
-    """
-    from scipy.signal import butter, sosfiltfilt
-
-    x = np.asarray(x, dtype=np.float64)
-    sos = butter(order, cutoff_hz, btype="highpass", fs=fs_hz, output="sos")
-    pad = 3 * (2 * sos.shape[0] + 1)
-    if x.shape[0] <= pad:
-        return x.copy()
-    return sosfiltfilt(sos, x)
-
-
 def envelope(x: np.ndarray) -> np.ndarray:
     """Magnitude of the analytic signal (Hilbert transform) of ``x`` minus its mean."""
     from scipy.signal import hilbert
@@ -227,6 +212,24 @@ class BeatFit:
     beat_hz: float | None
     peak: float
     residual_rms: float
+
+
+def _golden(fun: Callable[[float], float], lo: float, hi: float, *, tol: float) -> float:
+    """Minimum of a unimodal function on [lo, hi] by golden-section search."""
+    g = (np.sqrt(5.0) - 1.0) / 2.0
+    a, b = lo, hi
+    c, d = b - g * (b - a), a + g * (b - a)
+    fc, fd = fun(c), fun(d)
+    while b - a > tol:
+        if fc < fd:
+            b, d, fd = d, c, fc
+            c = b - g * (b - a)
+            fc = fun(c)
+        else:
+            a, c, fc = c, d, fd
+            d = a + g * (b - a)
+            fd = fun(d)
+    return 0.5 * (a + b)
 
 
 def _ls_fit(x: np.ndarray, t: np.ndarray, freqs: list[float]) -> tuple[np.ndarray, float]:
@@ -268,8 +271,6 @@ def fit_beat(
     BeatFit
         The fitted components.
     """
-    from scipy.optimize import minimize_scalar
-
     x = np.asarray(x, dtype=np.float64)
     t = np.arange(x.shape[0]) / fs_hz
     peak = float(np.max(np.abs(x))) if x.size else 0.0
@@ -289,10 +290,7 @@ def fit_beat(
     f_guess = float(freqs[band][np.argmax(spec[band])])
     step = max(fs_hz / n_fft * 4, 1.0 / dur)
     lo, hi = max(0.3 * f_hz, f_guess - step), min(1.7 * f_hz, f_guess + step)
-    opt = minimize_scalar(
-        lambda fn: _ls_fit(x, t, [f_hz, fn])[1], bounds=(lo, hi), method="bounded"
-    )
-    fn = float(opt.x)
+    fn = _golden(lambda fr: _ls_fit(x, t, [f_hz, fr])[1], lo, hi, tol=1e-4)
     coef2, res2 = _ls_fit(x, t, [f_hz, fn])
     forced2 = float(np.hypot(coef2[1], coef2[2]) / np.sqrt(2.0))
     free2 = float(np.hypot(coef2[3], coef2[4]) / np.sqrt(2.0))
