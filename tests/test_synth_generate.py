@@ -96,6 +96,9 @@ def test_truth_is_consistent_with_the_asked_timing(event: SimulatedEvent) -> Non
     assert tr["dead_time_setting_s"] == sc.breaker.dead_time_s
     ext = tr["extinction_s"]
     assert tr["outcome"] in ("success", "reclose_onto_fault")
+    for end in ("local", "remote"):
+        closed = tr["reclose_s"][end] is not None
+        assert tr["outcome_by_end"][end] == (tr["outcome"] if closed else "no_reclose")
     if tr["outcome"] == "success":
         assert ext is not None and sa < ext < rc
         assert tr["extinction_margin_s"] == pytest.approx(rc - ext)

@@ -396,6 +396,9 @@ def _truth(
         "reclose_command_s": {e: _rel(timing.reclose_command_s[e], t0) for e in ENDS},
         "reclose_s": reclose,
         "outcome": outcome,
+        "outcome_by_end": {
+            e: (outcome if reclose.get(e) is not None else "no_reclose") for e in ENDS
+        },
         "three_pole_trip_s": _rel(getattr(tr, "three_pole_trip_s", None), t0),
         "dead_time_setting_s": timing.dead_time_s,
         "extinction_margin_s": margin,
