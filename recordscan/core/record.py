@@ -38,6 +38,17 @@ def _rate(dt: np.ndarray, first: int, last: int) -> float:
 
 
 def _readonly(a: np.ndarray, dtype: type | np.dtype) -> np.ndarray:
+    # an array that is already read-only, of the right dtype and owns its memory cannot be
+    # changed by the caller without undoing that on purpose: keep it (readers hand over
+    # freshly decoded arrays this way and save a copy); anything else is copied
+    if (
+        isinstance(a, np.ndarray)
+        and a.dtype == dtype
+        and not a.flags.writeable
+        and a.flags.owndata
+        and a.flags.c_contiguous
+    ):
+        return a
     arr = np.array(a, dtype=dtype, copy=True)
     arr.setflags(write=False)
     return arr
