@@ -202,13 +202,21 @@ def build_time(
     if ts_missing.any():
         notes.append("some .dat timestamps are missing; time axis from the sample rates")
         return t_rate, "rates", notes
-    t_ts = (ts - ts[0]) * unit_s
-    d_ts = np.diff(t_ts)
-    d_rate = np.diff(t_rate)
-    tol = np.maximum(0.25 * d_rate, 2.0 * unit_s)
-    agree = np.abs(d_ts - d_rate) <= tol
+    d_ts = np.diff(ts)
+    d_ts *= unit_s
+    d_rate: float | np.ndarray
+    if len(rates) == 1:
+        d_rate = 1.0 / rates[0][0]  # one rate: a scalar saves passes over the data
+        tol: float | np.ndarray = max(0.25 * d_rate, 2.0 * unit_s)
+    else:
+        d_rate = np.diff(t_rate)
+        tol = np.maximum(0.25 * d_rate, 2.0 * unit_s)
+    dev = d_ts - d_rate
+    np.abs(dev, out=dev)
+    agree = dev <= tol
     if agree.all():
         return t_rate, "rates", notes
+    t_ts = (ts - ts[0]) * unit_s
     gap = d_ts > d_rate + tol
     if (agree | gap).all():
         starts = np.concatenate(([0], np.flatnonzero(gap) + 1))
@@ -226,7 +234,8 @@ def build_time(
     bad = int((~agree).sum())
     notes.append(
         f".dat timestamps disagree with the sample rates at {bad} of {n - 1} intervals "
-        f"(median interval {float(np.median(d_ts)):.6g} s vs {float(np.median(d_rate)):.6g} s); "
+        f"(median interval {float(np.median(d_ts)):.6g} s vs "
+        f"{float(np.median(np.asarray(d_rate))):.6g} s); "
         "time axis from the sample rates"
     )
     return t_rate, "rates", notes
@@ -244,6 +253,8 @@ def to_record(
 ) -> Record:
     """Build a :class:`Record` (primary SI values) from the raw cfg and dat contents."""
     t_s, time_source, time_notes = time_axis(cfg, raw, name=name)
+    t_s = np.ascontiguousarray(t_s, dtype=np.float64)
+    t_s.setflags(write=False)
     analog = []
     raw_analog = raw.analog
     for j, spec in enumerate(cfg.analog):
@@ -260,15 +271,21 @@ def to_record(
         )
         f = scaling.to_primary
         # signalling NaNs in FLOAT32 data, absurd a·x products: no stray warnings
+        column = raw_analog[:, j]
         with np.errstate(invalid="ignore", over="ignore"):
-            values = raw_analog[:, j].astype(np.float64)
-            values *= spec.a * f
+            if column.dtype.kind == "i":
+                # integer × Python float gives float64 in one fast pass (no dtype= path)
+                values = column * float(spec.a * f)
+            else:
+                values = column.astype(np.float64)
+                values *= spec.a * f
             if spec.b:
                 values += spec.b * f
         if raw.missing is not None:
             miss = raw.missing[:, j]
             if miss.any():
                 values[miss] = np.nan
+        values.setflags(write=False)  # handed over to the Record without another copy
         analog.append(
             AnalogChannel(
                 name=spec.name,

@@ -41,7 +41,7 @@ class RawData:
     Attributes
     ----------
     sample_numbers : numpy.ndarray
-        int64 sample numbers as written.
+        Sample numbers as written (integer array).
     timestamps : numpy.ndarray
         float64 timestamps in file units (NaN where missing).
     analog : numpy.ndarray
@@ -79,9 +79,9 @@ def _unpack_status(words: np.ndarray, n_status: int) -> np.ndarray:
     n = words.shape[0]
     if n_status == 0:
         return np.zeros((n, 0), dtype=bool)
-    as_bytes = np.ascontiguousarray(words, dtype="<u2").view(np.uint8).reshape(n, -1)
-    bits = np.unpackbits(as_bytes, axis=1, bitorder="little")
-    return bits[:, :n_status].astype(bool)
+    as_bytes = np.ascontiguousarray(words, dtype="<u2").view(np.uint8).reshape(-1)
+    bits = np.unpackbits(as_bytes, bitorder="little").reshape(n, -1)  # 1-D: table lookup
+    return bits[:, :n_status].view(bool)  # 0/1 bytes are valid bools: no copy
 
 
 def _pack_status(status: np.ndarray) -> np.ndarray:
@@ -147,20 +147,21 @@ def decode_binary(
         )
     rows = np.frombuffer(data, dtype=dtype, count=n)
     analog = rows["a"]
+    miss: np.ndarray | None = None
     if data_format == "FLOAT32":
         with np.errstate(invalid="ignore"):
-            miss = ~np.isfinite(analog)  # NaN marks missing; an infinity is no measurement
-    else:
+            bad = ~np.isfinite(analog)  # NaN marks missing; an infinity is no measurement
+        miss = bad if bad.any() else None
+    elif analog.size and analog.min() == MISSING_INT[data_format]:
         miss = analog == MISSING_INT[data_format]
     ts = rows["ts"].astype(np.float64)
-    ts_missing = rows["ts"] == TIMESTAMP_MISSING
-    if ts_missing.any():
-        ts[ts_missing] = np.nan
+    if ts.size and ts.max() == TIMESTAMP_MISSING:
+        ts[ts == TIMESTAMP_MISSING] = np.nan
     return RawData(
-        sample_numbers=rows["n"].astype(np.int64),
+        sample_numbers=rows["n"],
         timestamps=ts,
         analog=analog,
-        missing=miss if miss.any() else None,
+        missing=miss,
         status=_unpack_status(rows["d"], n_status),
     )
 

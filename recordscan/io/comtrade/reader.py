@@ -7,9 +7,12 @@ Only numpy is imported here; pandas is imported lazily for ASCII data files, so 
 from __future__ import annotations
 
 import hashlib
+import queue
+import re
+import threading
 import unicodedata
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 from recordscan.core.record import Provenance, Record
 from recordscan.errors import FormatError, MissingFileError
@@ -27,14 +30,20 @@ CANDIDATE_ENCODINGS: tuple[str, ...] = ("gbk", "cp1251", "latin-1")
 
 
 # --------------------------------------------------------------------------- paths
-def _sibling(stem: Path, ext: str, *, prefer_upper: bool) -> Path | None:
-    """Find ``stem + ext`` in any letter case (exact case first)."""
-    first = stem.with_name(stem.name + (ext.upper() if prefer_upper else ext))
-    if first.is_file():
-        return first
-    second = stem.with_name(stem.name + (ext if prefer_upper else ext.upper()))
-    if second.is_file():
-        return second
+def _sibling(stem: Path, ext: str, *, prefer_upper: bool, scan: bool = True) -> Path | None:
+    """Find ``stem + ext`` in any letter case (the cfg's case first).
+
+    The usual spellings are tried directly; the folder is listed only when ``scan`` is set
+    and they all fail (a mixed-case name), so optional companions cost no directory scan.
+    """
+    tries = [ext.upper(), ext] if prefer_upper else [ext, ext.upper()]
+    tries.append(ext[:2].upper() + ext[2:])
+    for suffix in tries:
+        cand = stem.with_name(stem.name + suffix)
+        if cand.is_file():
+            return cand
+    if not scan:
+        return None
     folder = stem.parent if str(stem.parent) else Path(".")
     if not folder.is_dir():
         return None
@@ -92,15 +101,16 @@ def resolve(path: str | os.PathLike[str]) -> tuple[str, Path, Path | None]:
 
 
 # --------------------------------------------------------------------------- text
+_CONTROL_RE = re.compile("[\x00-\x08\x0b\x0c\x0e-\x19\x1b-\x1f\x7f-\x9f]")
+
+
 def _is_clean(text: str) -> bool:
     """True when decoded text holds no control characters other than tab/CR/LF/SUB."""
-    for ch in text:
-        if ch in "\t\r\n\x1a":
-            continue
-        cat = unicodedata.category(ch)
-        if cat in ("Cc", "Cs", "Co", "Cn"):
-            return False
-    return True
+    if _CONTROL_RE.search(text):
+        return False
+    if text.isascii():
+        return True
+    return all(unicodedata.category(ch) not in ("Cs", "Co", "Cn") for ch in text if ord(ch) > 127)
 
 
 def _script_score(text: str, encoding: str) -> float:
@@ -205,6 +215,43 @@ def decode_dat(cfg: Config, data: bytes, *, name: str, data_format: str) -> RawD
     return decode_binary(data, data_format=data_format, **common)
 
 
+# --------------------------------------------------------------------------- hashing
+_HASH_JOBS: queue.SimpleQueue[tuple[Any, bytes, threading.Event]] | None = None
+_HASH_LOCK = threading.Lock()
+_SMALL = 1 << 16
+
+
+def _hash_worker(jobs: queue.SimpleQueue[tuple[Any, bytes, threading.Event]]) -> None:
+    while True:
+        hasher, data, done = jobs.get()
+        try:
+            hasher.update(data)
+        finally:
+            done.set()
+
+
+def _hash_async(hasher: Any, data: bytes) -> threading.Event:
+    """Feed ``data`` to ``hasher`` on a background thread; the event is set when done.
+
+    hashlib releases the GIL on large buffers, so the SHA-256 of a big .dat runs while numpy
+    decodes it. One long-lived daemon thread serves all reads (no per-read start-up).
+    """
+    global _HASH_JOBS
+    done = threading.Event()
+    if len(data) < _SMALL:
+        hasher.update(data)
+        done.set()
+        return done
+    with _HASH_LOCK:
+        if _HASH_JOBS is None:
+            _HASH_JOBS = queue.SimpleQueue()
+            threading.Thread(
+                target=_hash_worker, args=(_HASH_JOBS,), name="recordscan-sha256", daemon=True
+            ).start()
+    _HASH_JOBS.put((hasher, data, done))
+    return done
+
+
 # --------------------------------------------------------------------------- read
 def read_comtrade(path: str | os.PathLike[str], *, encoding: str | None = None) -> Record:
     """Read a COMTRADE record without assigning roles.
@@ -232,10 +279,15 @@ def read_comtrade(path: str | os.PathLike[str], *, encoding: str | None = None) 
             raise FormatError(
                 f"{name}: DAT section is {sections.dat_format} but the cfg says {cfg.data_format}"
             )
-        raw = decode_dat(cfg, sections.dat, name=name, data_format=cfg.data_format)
+        hasher = hashlib.sha256()
+        done = _hash_async(hasher, blob)
+        try:
+            raw = decode_dat(cfg, sections.dat, name=name, data_format=cfg.data_format)
+        finally:
+            done.wait()
         header = _side_text(sections.hdr, encoding or used, name)
         info = _side_text(sections.inf, encoding or used, name)
-        digest = hashlib.sha256(blob).hexdigest()
+        digest = hasher.hexdigest()
         notes = sections.notes
     else:
         assert dat_path is not None
@@ -243,17 +295,20 @@ def read_comtrade(path: str | os.PathLike[str], *, encoding: str | None = None) 
         text, used = decode_text(cfg_bytes, encoding=encoding, name=str(main))
         cfg = parse_cfg(text, name=str(main))
         dat_bytes = _read_bytes(dat_path)
-        raw = decode_dat(cfg, dat_bytes, name=str(dat_path), data_format=cfg.data_format)
         hasher = hashlib.sha256(cfg_bytes)
-        hasher.update(dat_bytes)
+        done = _hash_async(hasher, dat_bytes)
+        try:
+            raw = decode_dat(cfg, dat_bytes, name=str(dat_path), data_format=cfg.data_format)
+        finally:
+            done.wait()
         digest = hasher.hexdigest()
         stem = main.with_suffix("")
         upper = main.suffix.isupper()
         header = info = ""
-        hdr_path = _sibling(stem, ".hdr", prefer_upper=upper)
+        hdr_path = _sibling(stem, ".hdr", prefer_upper=upper, scan=False)
         if hdr_path is not None:
             header = _side_text(_read_bytes(hdr_path), encoding or used, str(hdr_path))
-        inf_path = _sibling(stem, ".inf", prefer_upper=upper)
+        inf_path = _sibling(stem, ".inf", prefer_upper=upper, scan=False)
         if inf_path is not None:
             info = _side_text(_read_bytes(inf_path), encoding or used, str(inf_path))
         notes = ()
