@@ -7,9 +7,9 @@ References
   circuit — the standard linear CVT equivalent, common practice), solved by
   ``scipy.signal.lsim`` (matrix exponential; an independent reference library).
 - Butterworth magnitude ``1/sqrt(1 + (f/fc)^(2n))`` (S. Butterworth, "On the theory of
-  filter amplifiers", Wireless Engineer 7, 1930; derived closed form).
+  filter amplifiers", Wireless Engineer 7, 1930 — citation from memory; derived closed form).
 - Uniform quantisation noise ``LSB/sqrt(12)`` (W. R. Bennett, "Spectra of quantized
-  signals", Bell System Technical Journal 27, 1948; derived).
+  signals", Bell System Technical Journal 27, 1948 — citation from memory; derived).
 - Signal-to-noise ratio definition ``20·log10(signal RMS / noise RMS)`` (derived).
 - First-order high-pass CT model: decay ``exp(-t/τ)`` of a DC step (derived closed form).
 """
