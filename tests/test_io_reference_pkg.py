@@ -14,6 +14,7 @@ difference is asserted here, so that docs/comtrade.md stays true for the install
 
 from __future__ import annotations
 
+import datetime
 import struct
 import warnings
 from pathlib import Path
@@ -85,3 +86,16 @@ def test_reference_fails_on_empty_ascii_field(tmp_path: Path) -> None:
     assert np.isnan(read(cfg, assign_roles=False).analog[0].values[2])
     with pytest.raises(ValueError):
         _reference(cfg)
+
+
+def test_reference_truncates_ns_and_ignores_time_code(tmp_path: Path) -> None:
+    from test_io_standard import _binary_2013
+
+    cfg = _put(tmp_path, "tz", CFG_2013.format(ft="BINARY"), _binary_2013("BINARY"))
+    ours = read(cfg, assign_roles=False)
+    ref = _reference(cfg)
+    # cfg stamp 02/12/2026,01:02:03.123456789 with time_code +1
+    assert ref.start_timestamp == datetime.datetime(2026, 12, 2, 1, 2, 3, 123456)
+    assert ours.start_ns == int(
+        np.datetime64("2026-12-02T00:02:03.123456789", "ns").astype(np.int64)
+    )

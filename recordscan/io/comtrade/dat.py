@@ -181,8 +181,8 @@ def decode_ascii(
     tolerated; a line with more or fewer values than the cfg says, or a non-numeric value,
     raises :class:`FormatError` naming the line.
     """
-    text = data.replace(b"\x1a", b"")
-    if not text.strip():
+    text = data.replace(b"\x1a", b"") if b"\x1a" in data else data
+    if not text or text.isspace():
         raise FormatError(f"{name}: empty data file")
     n_cols = 2 + n_analog + n_status
     import pandas as pd  # lazily: only ASCII files need it
