@@ -91,7 +91,14 @@ def record_end(
         start_s=timing.record_start_s, length_s=inst.record_length_s, rate_hz=inst.rate_hz
     )
     circuit = line.name
-    cvt = ins.CvtParameters.typical(v_phase_v=v_ph, frequency_hz=f) if inst.vt == "cvt" else None
+    cvt = None
+    if inst.vt == "cvt":
+        cvt = ins.CvtParameters.typical(
+            v_phase_v=v_ph,
+            frequency_hz=f,
+            c_total_f=inst.cvt_c_total_nf * 1e-9,
+            burden_va=inst.cvt_burden_va,
+        )
     ct = ins.CtParameters(saturation=inst.ct_saturation)
 
     def chain(x: np.ndarray, ref_rms: float) -> np.ndarray:

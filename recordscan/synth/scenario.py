@@ -275,6 +275,9 @@ class InstrumentSettings:
         Also record the fault-point arc current and voltage (a staged test).
     bus_vt : bool
         Also record bus-side voltages (ideal VTs).
+    cvt_c_total_nf, cvt_burden_va : float
+        CVT divider capacitance C1+C2 and burden (typical 100 nF, 200 VA; see
+        :meth:`recordscan.physics.instruments.CvtParameters.typical`).
     """
 
     vt: str = "cvt"
@@ -289,6 +292,8 @@ class InstrumentSettings:
     pre_fault_s: float = 0.1
     arc_channels: bool = False
     bus_vt: bool = False
+    cvt_c_total_nf: float = 100.0
+    cvt_burden_va: float = 200.0
 
 
 @dataclass(frozen=True)
@@ -664,6 +669,8 @@ def parse_scenario(
         pre_fault_s=it.num("pre_fault_s", 0.1, lo=0.02, hi=5),
         arc_channels=it.boolean("arc_channels", False),
         bus_vt=it.boolean("bus_vt", False),
+        cvt_c_total_nf=it.num("cvt_c_total_nf", 100.0, lo=1.0, hi=1000.0),
+        cvt_burden_va=it.num("cvt_burden_va", 200.0, lo=1.0, hi=2000.0),
     )
     if instruments.pre_fault_s >= instruments.record_length_s:
         raise it.fail("pre_fault_s", "must be shorter than record_length_s")
