@@ -146,6 +146,11 @@ def test_long_record_uses_timemult(tmp_path: Path) -> None:
         ("cp1251", "Подстанция Элдерби", "Ток фаза А"),
         ("gbk", "阿什科姆变电站", "线路电压A相"),
         ("latin-1", "Estação Corrow", "Tensão fase A"),
+        ("cp1251", "ПС ЭЛДЕРБИ", "ТОКИ"),  # capitals: even byte runs GBK could also decode
+        ("gbk", "科罗变电站（2）", "电流"),
+        ("gbk", "Ashcombe", "500kV线路A相电压"),  # hanzi glued to Latin letters
+        ("latin-1", "Größe Überwachung", "Oscilógrafo"),
+        ("cp1252", "Station “Ashcombe”", "Strom €"),
     ],
 )
 def test_legacy_encodings_are_detected(tmp_path: Path, enc: str, station: str, name: str) -> None:

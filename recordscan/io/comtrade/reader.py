@@ -26,7 +26,7 @@ if TYPE_CHECKING:  # pragma: no cover
 
 _EXTS = (".cfg", ".dat", ".cff", ".hdr", ".inf")
 #: legacy encodings tried, in order, when a configuration is not valid UTF-8
-CANDIDATE_ENCODINGS: tuple[str, ...] = ("gbk", "cp1251", "latin-1")
+CANDIDATE_ENCODINGS: tuple[str, ...] = ("gbk", "cp1251", "latin-1", "cp1252")
 
 
 # --------------------------------------------------------------------------- paths
@@ -113,28 +113,67 @@ def _is_clean(text: str) -> bool:
     return all(unicodedata.category(ch) not in ("Cs", "Co", "Cn") for ch in text if ord(ch) > 127)
 
 
+#: typographic signs common in any Western or Cyrillic text: neither evidence for nor against
+_NEUTRAL = frozenset("“”‘’„–—…•€°±µ«»·©®™×§")
+
+
+def _cyrillic_word_ok(word: str) -> bool:
+    """A plausible Russian/Ukrainian-style word: basic letters, lower, upper or Title case."""
+    if not all(0x0410 <= ord(c) <= 0x044F or c in "Ёё" for c in word):
+        return False
+    return word.islower() or word.isupper() or (word[0].isupper() and word[1:].islower())
+
+
 def _script_score(text: str, encoding: str) -> float:
-    """Plausibility of a legacy decoding: letters of the expected script, in whole words."""
+    """Plausibility of a legacy decoding, about one point per plausible letter.
+
+    GBK: common hanzi (GB2312 level 1, lead byte 0xB0-0xD7) score 1, rarer ones less;
+    cp1251: whole Cyrillic words of basic letters in a normal letter case; latin-1/cp1252:
+    accented Latin letters. Typographic signs are neutral; anything else costs a point.
+    """
     score = 0.0
     n = len(text)
-    for i, ch in enumerate(text):
-        if ord(ch) < 128:
+    i = 0
+    while i < n:
+        ch = text[i]
+        code = ord(ch)
+        if code < 128 or ch in _NEUTRAL:
+            i += 1
             continue
         prev_c = text[i - 1] if i else " "
+        if encoding == "cp1251" and 0x0400 <= code <= 0x04FF:
+            j = i
+            while j < n and 0x0400 <= ord(text[j]) <= 0x04FF:
+                j += 1
+            word = text[i:j]
+            next_c = text[j] if j < n else " "
+            glued = (prev_c.isascii() and prev_c.isalpha()) or (
+                next_c.isascii() and next_c.isalpha()
+            )
+            score += len(word) if _cyrillic_word_ok(word) and not glued else -len(word)
+            i = j
+            continue
         next_c = text[i + 1] if i + 1 < n else " "
-        ascii_letter_near = (prev_c.isascii() and prev_c.isalpha()) or (
-            next_c.isascii() and next_c.isalpha()
-        )
-        code = ord(ch)
+        glued = (prev_c.isascii() and prev_c.isalpha()) or (next_c.isascii() and next_c.isalpha())
         if encoding == "gbk":
-            ok = 0x4E00 <= code <= 0x9FFF
-            score += 2.0 if ok and not ascii_letter_near else (0.5 if ok else -1.0)
+            if 0x4E00 <= code <= 0x9FFF:
+                common = 0xB0 <= ch.encode("gbk")[0] <= 0xD7
+                score += (1.0 if common else 0.5) * (0.5 if glued else 1.0)
+            elif not (0x3000 <= code <= 0x303F or 0xFF00 <= code <= 0xFFEF):
+                score -= 1.0  # (CJK punctuation and full-width forms are neutral)
         elif encoding == "cp1251":
-            ok = 0x0400 <= code <= 0x04FF
-            score += 1.0 if ok and not ascii_letter_near else -1.0
+            score -= 1.0
         else:
-            ok = ch.isalpha() and 0x00C0 <= code <= 0x024F
-            score += 1.0 if ok else -1.0
+            # accented letters come one or two at a time inside Latin words
+            j = i
+            while j < n and ord(text[j]) >= 128:
+                j += 1
+            run = [c for c in text[i:j] if c not in _NEUTRAL]
+            letters = all(c.isalpha() and 0x00C0 <= ord(c) <= 0x024F for c in run)
+            score += len(run) if letters and len(run) <= 2 else -len(run)
+            i = j
+            continue
+        i += 1
     return score
 
 
