@@ -185,7 +185,13 @@ def test_writer_refuses_bad_combinations(tmp_path: Path) -> None:
 
 
 # --------------------------------------------------------------------------- mangling
-FORMATS = [("ASCII", False), ("BINARY", False), ("BINARY32", True), ("FLOAT32", False)]
+FORMATS = [
+    ("ASCII", False),
+    ("ASCII", True),
+    ("BINARY", False),
+    ("BINARY32", True),
+    ("FLOAT32", False),
+]
 
 
 def _mangle(data: bytes, how: str, rnd: random.Random) -> bytes:

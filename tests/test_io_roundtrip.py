@@ -225,3 +225,11 @@ def test_round_trip_property(rec: Record, case: tuple[str, str, bool]) -> None:
         assert back.start_ns == rec.start_ns
     else:
         assert back.start_ns == rec.start_ns // 1000 * 1000
+
+
+def test_unknown_instants_and_single_sample(tmp_path: Path) -> None:
+    # no start/trigger known: blank stamps are written and read back as None
+    rec = Record(t_s=np.array([0.0]), analog=(AnalogChannel("IA", np.array([-1.0]), unit="A"),))
+    back = read(write(rec, tmp_path / "one", data_format="ASCII")[0], assign_roles=False)
+    assert back.start_ns is None and back.trigger_ns is None
+    assert back.n_samples == 1 and back.analog[0].values[0] == -1.0
