@@ -1,0 +1,93 @@
+"""``recordscan testset`` end to end, then ``recordscan verify`` on known latencies.
+
+The "relay" is built here from the manifest's truth with chosen latencies after the true
+final extinction and a clock offset (its own fault inception 0.2 s later than the
+playback's); the verifier must report exactly those latencies (it aligns on the fault
+inception) and the permanent fault as a correct block. Bad plans end with exit code 2, a
+one-line message and nothing written.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pytest
+from test_relaytest_playback import TINY, write_plan
+
+from recordscan.cli.main import main
+
+OFFSET_S = 0.2
+LATENCY_S = {"case-001": 0.0125, "case-003": 0.030}
+
+
+def run(argv: list[str], capsys: pytest.CaptureFixture[str]) -> tuple[int, str, str]:
+    with pytest.raises(SystemExit) as ex:
+        main(argv)
+    out, err = capsys.readouterr()
+    return int(ex.value.code or 0), out, err
+
+
+def test_testset_then_verify(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    plan = write_plan(tmp_path)
+    out_dir = tmp_path / "playback"
+    code, out, err = run(["testset", str(plan), "--out", str(out_dir)], capsys)
+    assert code == 0, err
+    assert "3 case(s) written" in out and "2 expect a reclose permit" in out
+    assert "1 expect a block" in out and "Caution:" in out
+    doc = json.loads((out_dir / "manifest.json").read_text(encoding="utf-8"))
+    truth = {c["case"]: c for c in doc["cases"]}
+    assert truth["case-002"]["expected"] == "block"
+    # the relay's responses on its own clock (inception OFFSET_S later than the playback's)
+    rows = ["case,inception_s,permit_s"]
+    for case, lat in LATENCY_S.items():
+        t = truth[case]
+        rows.append(
+            f"{case},{t['inception_s'] + OFFSET_S!r},{t['extinction_s'] + lat + OFFSET_S!r}"
+        )
+    rows.append(f"case-002,{truth['case-002']['inception_s'] + OFFSET_S!r},")
+    resp = tmp_path / "responses.csv"
+    resp.write_text("\n".join(rows) + "\n", encoding="utf-8")
+    code, out, err = run(
+        ["verify", str(resp), "--manifest", str(out_dir / "manifest.json"), "--json"], capsys
+    )
+    assert code == 0, err
+    rep = json.loads(out)
+    got = {c["case"]: c for c in rep["cases"]}
+    assert got["case-002"]["verdict"] == "correct_block"
+    for case, lat in LATENCY_S.items():
+        assert got[case]["verdict"] == "correct_permit"
+        assert got[case]["latency_s"] == pytest.approx(lat, abs=1e-9)
+    assert rep["counts"]["premature_permit"] == 0 and rep["passed"]
+
+
+def test_testset_json(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    one = TINY.split("[[case]]")[0] + "[[case]]\npermanent = true\n"
+    plan = write_plan(tmp_path, one)
+    code, out, _ = run(["testset", str(plan), "--out", str(tmp_path / "o"), "--json"], capsys)
+    assert code == 0
+    s = json.loads(out)
+    assert s["cases"] == 1 and s["expected_blocks"] == 1 and s["failed"] == []
+    assert s["caution"].startswith("Caution")
+
+
+@pytest.mark.parametrize(
+    ("old", "new"),
+    [
+        ("seed = 3", "seed = -3"),
+        ("rate_hz = 2000", "rate_hz = 200"),
+        ("location_pct = 30", "location_pct = 'near'"),
+        ("[[case]]", "[[case]\n"),
+    ],
+)
+def test_bad_plan_exit_2_nothing_written(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str], old: str, new: str
+) -> None:
+    plan = write_plan(tmp_path, TINY.replace(old, new, 1))
+    out_dir = tmp_path / "never"
+    code, out, err = run(["testset", str(plan), "--out", str(out_dir)], capsys)
+    assert code == 2
+    lines = err.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith("recordscan: error: ") and str(plan) in lines[0]
+    assert "Traceback" not in err and out == ""
+    assert not out_dir.exists()
