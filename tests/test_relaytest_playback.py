@@ -299,5 +299,5 @@ def test_bad_plans_name_the_file_and_key(tmp_path: Path, old: str, new: str, key
 
 def test_missing_base_scenario_file(tmp_path: Path) -> None:
     p = write_plan(tmp_path, 'seed = 1\n[base]\nscenario = "nowhere.toml"\n')
-    with pytest.raises(FormatError, match="base.scenario: scenario file not found"):
+    with pytest.raises(FormatError, match=r"base\.scenario: scenario file not found"):
         load_plan(p)
