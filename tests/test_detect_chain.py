@@ -27,10 +27,11 @@ def test_inception_pole_open_reclose_instants(f_hz: float, fs_hz: float) -> None
     assert abs(a.inception.t_s - truth["inception_s"]) <= 2 * dt
     assert abs(a.pole_open.t_s - truth["pole_open_s"]) <= 2 * dt
     assert a.pole_open.source == "current_zero"
-    assert abs(a.reclose_s - truth["reclose_s"]) <= 2 * dt
+    # the reclose is found on the block-averaged record (≥ 40 samples per cycle)
+    assert abs(a.reclose_s - truth["reclose_s"]) <= max(2 * dt, 1.0 / (40 * f_hz))
     assert a.reclose.outcome == "success"
     assert a.reclose.dead_time_s == pytest.approx(
-        truth["reclose_s"] - truth["pole_open_s"], abs=3 * dt
+        truth["reclose_s"] - truth["pole_open_s"], abs=max(3 * dt, 1.0 / (40 * f_hz))
     )
 
 

@@ -295,6 +295,7 @@ def detect_inception(
             channels=(q.channel_name(role),),
         ),
         params={
+            "role": role,
             "noise_factor": noise_factor,
             "current_fraction": current_fraction,
             "voltage_fraction": voltage_fraction,

@@ -25,6 +25,7 @@ __all__ = [
     "detect_pole_openings",
     "detect_trip",
     "infer_remote_opening",
+    "zero_crossing",
 ]
 
 
@@ -120,7 +121,7 @@ def current_quiet_threshold(
     return max(fraction * peak, 8.0 * sigma, 1e-9), peak
 
 
-def _zero_crossing(t_s: np.ndarray, i: np.ndarray, k: int, n_cycle: float) -> float:
+def zero_crossing(t_s: np.ndarray, i: np.ndarray, k: int, n_cycle: float) -> float:
     """Instant the current reached zero, extrapolated from the last samples before ``k``.
 
     ``k`` is the first sample of the interrupted stretch; the two samples before it are on
@@ -196,7 +197,7 @@ def detect_pole_openings(
         if cz is not None:
             k, thr = cz
             dt = 1.0 / q.segment_at(k).rate_hz
-            t = _zero_crossing(record.t_s, q.values(I_LINE[p]), k, q.n_cycle(k))
+            t = zero_crossing(record.t_s, q.values(I_LINE[p]), k, q.n_cycle(k))
             lag = None if t_dig is None else t_dig - t
             if lag is not None and abs(lag) > 5 * q.cycle_s:
                 lag = None  # the status change belongs to another operation

@@ -229,6 +229,44 @@ def with_burning_after(trace: ArcTrace, restrike_idx: list[int], stop_idx: int) 
     return dataclasses.replace(trace, burning=burning)
 
 
+def _refine_full_rate(
+    full: Record,
+    role: str,
+    *,
+    t_kc: float,
+    t_lo: float,
+    t_hi: float,
+    f_hz: float,
+    arc_amp: float,
+    window_cycles: int,
+    t_coarse: float,
+) -> tuple[float, float] | None:
+    """Repeat the recovery-fit refinement on the full-rate samples near ``t_kc``."""
+    ch = full.analog_by_role(role)
+    if ch is None:
+        return None
+    t = full.t_s
+    k_lo = int(np.searchsorted(t, t_lo))
+    k_hi = int(np.searchsorted(t, t_hi, side="right"))
+    k_c = int(np.searchsorted(t, t_kc))
+    if not k_lo < k_c < k_hi:
+        return None
+    seg = next((s for s in full.segments if s.start_idx <= k_c < s.stop_idx), None)
+    if seg is None or seg.rate_hz <= 0:
+        return None
+    lo, hi = max(k_lo, seg.start_idx), min(k_hi, seg.stop_idx)
+    n = seg.rate_hz / f_hz
+    v = np.nan_to_num(ch.values)
+    ref = _refine(v, t, kc=k_c, n=n, f_hz=f_hz, lo=lo, hi=hi, arc_amp=arc_amp)
+    if ref is None or not k_c - window_cycles * n - 2 <= ref[0] <= k_c:
+        return None
+    dt = 1.0 / seg.rate_hz
+    t_fine = float(t[ref[0]]) - 0.5 * dt
+    if abs(t_fine - t_coarse) > 0.25 / f_hz:
+        return None  # the full-rate fit disagrees with the block-averaged one: keep that
+    return t_fine, max(dt, 0.05 / f_hz)
+
+
 def _refine(
     v: np.ndarray,
     t: np.ndarray,
@@ -287,6 +325,7 @@ def detect_extinction(
     h_off: float = 0.08,
     level_min: float = 0.03,
     trace: ArcTrace | None = None,
+    refine_record: Record | None = None,
 ) -> ExtinctionResult:
     """Find the final extinction of the secondary arc on ``phase``.
 
@@ -308,6 +347,10 @@ def detect_extinction(
         A recovered phase below this fraction of the healthy-phase voltage is flagged.
     trace : ArcTrace, optional
         A trace already computed with the same settings.
+    refine_record : Record, optional
+        The same record at its full sample rate when ``record`` was block-averaged
+        (:func:`recordscan.detect._base.decimate_record`): the instant is then refined on
+        the full-rate samples.
 
     Returns
     -------
@@ -434,6 +477,20 @@ def detect_extinction(
         unc = max(unc, float(t[seg_lo]) - gap_lo)
         warns.append("extinction fell in a gap of the record; its instant is bounded by the gap")
     t_ext = float(t[k_ext]) - 0.5 * dt
+    if refine_record is not None and ref is not None:
+        fine = _refine_full_rate(
+            refine_record,
+            role,
+            t_kc=float(t[kc]),
+            t_lo=float(t[lo]),
+            t_hi=float(t[b - 1]),
+            f_hz=q.f_hz,
+            arc_amp=arc_amp,
+            window_cycles=m,
+            t_coarse=t_ext,
+        )
+        if fine is not None:
+            t_ext, unc = fine
     after = tr.level_pu[kc - a : min(kc - a + int(2 * n), b - a)]
     after = after[np.isfinite(after)]
     lvl_after = float(np.median(after)) if after.size else float("nan")

@@ -20,6 +20,7 @@ from __future__ import annotations
 import numpy as np
 
 __all__ = [
+    "dft_kernel",
     "estimate_frequency",
     "frequency_from_phasor",
     "full_cycle_phasor",
@@ -69,21 +70,27 @@ def sliding_window_sum(z: np.ndarray, length: float) -> np.ndarray:
     c = np.empty(n + 1, dtype=dtype)
     c[0] = 0
     np.cumsum(z, out=c[1:])
-    idx = np.arange(first, n)
-    s = c[idx + 1] - c[idx + 1 - n_full]
+    # out[k] = c[k+1] − c[k+1−n_full] (+ frac·z[k−n_full]) for k ≥ first
+    np.subtract(c[first + 1 :], c[first + 1 - n_full : n + 1 - n_full], out=out[first:])
     if frac > 0:
-        s = s + frac * z[idx - n_full]
-    out[first:] = s
+        out[first:] += frac * z[first - n_full : n - n_full]
     return out
 
 
-def _kernel(n: int, fs_hz: float, f_hz: float, t0_s: float) -> np.ndarray:
+def dft_kernel(n: int, *, fs_hz: float, f_hz: float, t0_s: float = 0.0) -> np.ndarray:
+    """The DFT kernel ``exp(−j·2π·f·t_k)`` at the sample instants ``t_k = t0 + k/fs``."""
     t = t0_s + np.arange(n) / fs_hz
     return np.exp(-1j * 2.0 * np.pi * f_hz * t)
 
 
 def full_cycle_phasor(
-    x: np.ndarray, *, fs_hz: float, f_hz: float, t0_s: float = 0.0, harmonic: int = 1
+    x: np.ndarray,
+    *,
+    fs_hz: float,
+    f_hz: float,
+    t0_s: float = 0.0,
+    harmonic: int = 1,
+    kernel: np.ndarray | None = None,
 ) -> np.ndarray:
     """Sliding full-cycle DFT phasor (RMS magnitude) of ``x`` at ``harmonic·f_hz``.
 
@@ -99,6 +106,9 @@ def full_cycle_phasor(
         Instant of the first sample (phase reference is absolute time).
     harmonic : int
         Harmonic order of the kernel (1 = fundamental).
+    kernel : numpy.ndarray, optional
+        ``dft_kernel(len(x), fs_hz=fs_hz, f_hz=harmonic·f_hz, t0_s=t0_s)`` when already
+        computed (shared by the channels of one segment).
 
     Returns
     -------
@@ -109,7 +119,11 @@ def full_cycle_phasor(
     """
     x = np.asarray(x, dtype=np.float64)
     length = samples_per_cycle(fs_hz, f_hz)
-    k = _kernel(x.shape[0], fs_hz, harmonic * f_hz, t0_s)
+    k = (
+        kernel
+        if kernel is not None
+        else dft_kernel(x.shape[0], fs_hz=fs_hz, f_hz=harmonic * f_hz, t0_s=t0_s)
+    )
     return (np.sqrt(2.0) / length) * sliding_window_sum(x * k, length)
 
 
@@ -132,7 +146,7 @@ def half_cycle_phasor(x: np.ndarray, *, fs_hz: float, f_hz: float, t0_s: float =
     """
     x = np.asarray(x, dtype=np.float64)
     length = samples_per_cycle(fs_hz, f_hz) / 2.0
-    k = _kernel(x.shape[0], fs_hz, f_hz, t0_s)
+    k = dft_kernel(x.shape[0], fs_hz=fs_hz, f_hz=f_hz, t0_s=t0_s)
     return (np.sqrt(2.0) / length) * sliding_window_sum(x * k, length)
 
 

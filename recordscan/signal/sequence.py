@@ -76,9 +76,9 @@ def superimposed(x: np.ndarray, *, length: float, n_cycles: int = 1) -> np.ndarr
     first = m + (1 if frac > 1e-9 else 0)
     if x.shape[0] <= first:
         return out
-    idx = np.arange(first, x.shape[0])
-    delayed = (1.0 - frac) * x[idx - m]
+    n = x.shape[0]
+    delayed = (1.0 - frac) * x[first - m : n - m]
     if frac > 1e-9:
-        delayed = delayed + frac * x[idx - m - 1]
-    out[first:] = x[idx] - delayed
+        delayed += frac * x[first - m - 1 : n - m - 1]
+    out[first:] = x[first:] - delayed
     return out

@@ -235,10 +235,15 @@ def _golden(fun: Callable[[float], float], lo: float, hi: float, *, tol: float) 
 def _ls_fit(x: np.ndarray, t: np.ndarray, freqs: list[float]) -> tuple[np.ndarray, float]:
     cols = [np.ones_like(t)]
     for f in freqs:
-        cols += [np.cos(2 * np.pi * f * t), np.sin(2 * np.pi * f * t)]
-    a = np.stack(cols, axis=1)
-    coef, *_ = np.linalg.lstsq(a, x, rcond=None)
-    res = x - a @ coef
+        w = 2 * np.pi * f * t
+        cols += [np.cos(w), np.sin(w)]
+    a = np.stack(cols, axis=0)
+    gram = a @ a.T
+    try:
+        coef = np.linalg.solve(gram, a @ x)
+    except np.linalg.LinAlgError:
+        coef = np.linalg.lstsq(a.T, x, rcond=None)[0]
+    res = x - coef @ a
     return coef, float(np.sqrt(np.mean(res * res)))
 
 
@@ -272,12 +277,16 @@ def fit_beat(
         The fitted components.
     """
     x = np.asarray(x, dtype=np.float64)
-    t = np.arange(x.shape[0]) / fs_hz
     peak = float(np.max(np.abs(x))) if x.size else 0.0
+    step = max(1, int(fs_hz // (20.0 * f_hz)))  # ≥ 20 samples per cycle are plenty here
+    x = x[::step]
+    fs_hz = fs_hz / step
+    t = np.arange(x.shape[0]) / fs_hz
     coef1, res1 = _ls_fit(x, t, [f_hz])
     forced = float(np.hypot(coef1[1], coef1[2]) / np.sqrt(2.0))
     dur = x.shape[0] / fs_hz
-    if dur < 3.0 / f_hz:
+    if dur < 3.0 / f_hz or res1 < min_free_fraction * forced:
+        # too short to resolve a beat, or the forced sinusoid leaves too little to be one
         return BeatFit(forced, 0.0, None, None, peak, res1)
     a = np.stack([np.ones_like(t), np.cos(2 * np.pi * f_hz * t), np.sin(2 * np.pi * f_hz * t)], 1)
     resid = x - a @ coef1
@@ -290,7 +299,7 @@ def fit_beat(
     f_guess = float(freqs[band][np.argmax(spec[band])])
     step = max(fs_hz / n_fft * 4, 1.0 / dur)
     lo, hi = max(0.3 * f_hz, f_guess - step), min(1.7 * f_hz, f_guess + step)
-    fn = _golden(lambda fr: _ls_fit(x, t, [f_hz, fr])[1], lo, hi, tol=1e-4)
+    fn = _golden(lambda fr: _ls_fit(x, t, [f_hz, fr])[1], lo, hi, tol=1e-3)
     coef2, res2 = _ls_fit(x, t, [f_hz, fn])
     forced2 = float(np.hypot(coef2[1], coef2[2]) / np.sqrt(2.0))
     free2 = float(np.hypot(coef2[3], coef2[4]) / np.sqrt(2.0))
