@@ -125,8 +125,8 @@ def initial_estimates(
     for sl in _half_cycles(i):
         ai = np.abs(i[sl])
         au = np.abs(u[sl])
-        pk = float(ai.max())
-        sel = ai > 0.6 * pk
+        pk = float(np.percentile(ai, 90))  # robust against reignition spikes
+        sel = (ai > 0.6 * pk) & (ai < 1.5 * pk)
         if sel.sum() < 3:
             continue
         x, y = ai[sel], au[sel]
@@ -207,8 +207,20 @@ class _Problem:
         fit_alpha: bool,
         t_start_s: float,
         fit_r0: bool = True,
+        oversample: int = 1,
     ) -> None:
         self.t, self.i, self.u, self.mask = t, i, u, mask
+        # the sampled current is band-limited: interpolate it onto a finer grid when the arc
+        # time constant approaches the sample interval (|i| has a kink at each zero)
+        self.k = max(int(oversample), 1)
+        if self.k > 1:
+            from scipy.interpolate import CubicSpline
+
+            idx = np.arange((t.size - 1) * self.k + 1) / self.k
+            self.t_fine = np.interp(idx, np.arange(t.size), t)
+            self.i_fine = CubicSpline(t, i)(self.t_fine)
+        else:
+            self.t_fine, self.i_fine = t, i
         self.law, self.l0_m, self.prior, self.t_start_s = law, l0_m, prior, t_start_s
         self.names = ["u0_v_per_m", "tau0_s"]
         if fit_r0:
@@ -261,8 +273,27 @@ class _Problem:
 
     def simulate(self, p: dict[str, float]) -> ArcResponse:
         ap, lw = self.params(p)
-        return simulate_current_driven(
-            self.t, self.i, params=ap, law=lw, t_start_s=self.t_start_s, g0_siemens=self.g0
+        r = simulate_current_driven(
+            self.t_fine,
+            self.i_fine,
+            params=ap,
+            law=lw,
+            t_start_s=self.t_start_s,
+            g0_siemens=self.g0,
+        )
+        if self.k == 1:
+            return r
+        k = self.k
+        idx = None if r.extinction_idx is None else r.extinction_idx // k
+        return ArcResponse(
+            t_s=r.t_s[::k],
+            i_a=r.i_a[::k],
+            g_siemens=r.g_siemens[::k],
+            u_v=r.u_v[::k],
+            l_m=r.l_m[::k],
+            tau_s=r.tau_s[::k],
+            extinction_idx=idx,
+            extinction_s=r.extinction_s,
         )
 
     def residual(self, x: np.ndarray, u_target: np.ndarray | None = None) -> np.ndarray:
@@ -322,15 +353,21 @@ def fit_direct(
     t0 = float(t[0]) if t_start_s is None else float(t_start_s)
     # start where the arc conductance is measurable (a current peak region), and start the
     # model from the measured conductance there: a guessed initial state biases short windows
-    first = int(np.argmax(np.abs(i) > 0.3 * float(np.max(np.abs(i)))))
+    # crest of the driven current, robust against reignition spikes (capacitor discharges)
+    i_ref = math.sqrt(2.0) * float(np.sqrt(np.mean(i**2)))
+    first = int(np.argmax(np.abs(i) > 0.3 * i_ref))
     t, i, u = t[first:], i[first:], u[first:]
     init = initial_estimates(t, i, u, l0_m=l0_m, prior=pr, t_start_s=t0)
-    mask = np.abs(i) > opt.i_mask_frac * float(np.max(np.abs(i)))
+    mask = np.abs(i) > opt.i_mask_frac * i_ref
     fit_alpha = opt.fit_alpha and init.alpha_identifiable
     # r0 shows only where r0·|i| is a visible part of the gradient (kA primary arcs); at the
     # tens of amperes of a secondary arc it is far below the model and noise error
     i_pk = float(np.max(np.abs(i)))
     fit_r0 = pr.r0_ohm_per_m * i_pk >= 0.05 * init.u0_v_per_m
+    dt = float(np.median(np.diff(t)))
+    l_max = max(float(np.nanmax(init.l_half_m)), l0_m)
+    tau_min = init.tau0_s * min((l_max / l0_m) ** init.alpha, 1.0) * 0.5
+    k_over = int(np.clip(math.ceil(6.0 * dt / max(tau_min, 1e-6)), 1, 16))
     laws = LAWS if opt.law == "auto" else (opt.law,)
     if any(law not in LAWS for law in laws):
         raise FitError(f"unknown elongation law {opt.law!r}; use auto, {', '.join(LAWS)}")
@@ -340,6 +377,13 @@ def fit_direct(
         "tau0_s": init.tau0_s,
         "alpha": init.alpha,
         "v_m_per_s": init.v_m_per_s,
+    }
+    prior_start = {
+        "u0_v_per_m": pr.u0_v_per_m,
+        "r0_ohm_per_m": pr.r0_ohm_per_m,
+        "tau0_s": pr.tau0_s,
+        "alpha": pr.alpha,
+        "v_m_per_s": max(init.v_m_per_s, 1.0),
     }
     best = None
     for law in laws:
@@ -354,12 +398,25 @@ def fit_direct(
             fit_alpha=fit_alpha,
             t_start_s=t0,
             fit_r0=fit_r0,
+            oversample=k_over,
         )
         lo, hi = prob.bounds()
-        x0 = np.clip(prob.to_x(start), lo + 1e-9, hi - 1e-9)
-        sol = least_squares(
-            prob.residual, x0, bounds=(lo, hi), x_scale="jac", max_nfev=opt.max_nfev, diff_step=1e-4
-        )
+        # two starts: the step-by-step estimates and the prior (guards against a local
+        # minimum when the initial estimates are poor, e.g. at low sample rates)
+        sol = None
+        for begin in (start, prior_start):
+            x0 = np.clip(prob.to_x(begin), lo + 1e-9, hi - 1e-9)
+            cand = least_squares(
+                prob.residual,
+                x0,
+                bounds=(lo, hi),
+                x_scale="jac",
+                max_nfev=opt.max_nfev,
+                diff_step=1e-4,
+            )
+            if sol is None or cand.cost < sol.cost * (1 - 1e-6):
+                sol = cand
+        assert sol is not None
         m = sol.fun.size
         rss = float(np.sum(sol.fun**2))
         aic = m * math.log(max(rss / m, 1e-300)) + 2 * len(prob.names)

@@ -2,13 +2,14 @@
 
 from __future__ import annotations
 
+import warnings
 from dataclasses import dataclass
 
 import numpy as np
 
 from recordscan.core import roles
 from recordscan.core.record import Record
-from recordscan.errors import FitError
+from recordscan.errors import FitError, FitWarning
 from recordscan.fit.direct import DirectFitOptions, fit_direct
 from recordscan.fit.result import ArcFitResult
 from recordscan.physics.arc import PRIMARY_ARC, ArcParameters
@@ -134,7 +135,8 @@ def fit_record(
     found = find_arc_periods(t, i, frequency_hz=record.frequency_hz)
     l0 = 3.0 if l0_m is None else float(l0_m)
     cycle = 1.0 / record.frequency_hz
-    out = []
+    out: list[ArcFitResult] = []
+    skipped: list[str] = []
     for name in periods:
         win = found.primary_s if name == "primary" else found.secondary_s
         if win is None:
@@ -160,21 +162,26 @@ def fit_record(
                 l0_m=l0,
             )
         )
-        out.append(
-            fit_direct(
-                t[sel],
-                i[sel],
-                u[sel],
-                l0_m=l0,
-                t_start_s=a,
-                period=name,
-                prior=prior,
-                options=options,
+        try:
+            out.append(
+                fit_direct(
+                    t[sel],
+                    i[sel],
+                    u[sel],
+                    l0_m=l0,
+                    t_start_s=a,
+                    period=name,
+                    prior=prior,
+                    options=options,
+                )
             )
-        )
+        except FitError as exc:
+            skipped.append(f"{name} arc: {exc}")
+            warnings.warn(f"{name} arc not fitted: {exc}", FitWarning, stacklevel=2)
     if not out:
         raise FitError(
             f"{record.provenance.path or 'record'}: no primary or secondary arc period long "
             "enough to fit was found on the arc current channel"
+            + (f" ({'; '.join(skipped)})" if skipped else "")
         )
     return out

@@ -1,0 +1,765 @@
+"""Indirect fit: secondary-arc parameters from terminal records and the line description.
+
+The usual record carries only line-side voltages and currents. After the poles of the
+faulted phase have opened at both ends, the open conductor is coupled to the healthy phases
+through the line's capacitances (and reactors); :mod:`recordscan.fit.circuit` turns this into
+a small circuit driven by the measured healthy-phase voltages, with the Kizilcay-form arc of
+:mod:`recordscan.physics.arc` from the open conductor to ground. The fit:
+
+1. **Event chain** from :func:`recordscan.analysis.analyse`: faulted phase, start of the
+   secondary arc, restrikes, final extinction and reclose. The fitted arc episode starts at
+   the last restrike before the final extinction (the arc path is re-formed there and the
+   elongation starts again), otherwise at the secondary-arc start.
+2. **Burning period — voltage.** The simulated open-phase voltage (arc forced to burn) is
+   compared with the measured one in the power-frequency band only: the harmonics of the
+   square-wave arc voltage excite the standing waves of a long open conductor, which a
+   lumped circuit does not follow. A constant power-frequency phasor is fitted alongside
+   (linear, by variable projection): it absorbs the voltage induced along the open
+   conductor by the healthy phases' currents, which depends on the unknown fault position
+   and the load. The arc's power-frequency voltage grows with its length,
+   ``(u0 + r0·|i|)·(l0 + v·t)``, so the level gives ``u0`` (with ``l0`` held at its prior)
+   and the growth gives the **elongation rate** ``v``.
+3. **Extinction.** With ``u0`` and ``v`` fixed, the time constant ``τ0`` (α held at its
+   prior) is profiled so that the model arc, now free to go out by the extinction criterion
+   of :mod:`recordscan.physics.arc`, goes out at the measured final extinction; then step 2
+   is repeated once with that ``τ0``.
+
+Honest limits: one extinction instant determines one combination of the time-constant law
+(``τ0`` given ``α``); ``l0`` cannot be separated from ``u0`` and ``v`` (only ``u0·l0`` and
+``v/l0`` are seen); ``r0`` is invisible at secondary-arc currents; the extinction
+thresholds are the model's defaults. Each is reported as held at its prior or weakly
+determined.
+"""
+
+from __future__ import annotations
+
+import math
+import warnings
+from dataclasses import dataclass
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+from scipy.interpolate import CubicSpline
+from scipy.optimize import least_squares
+from scipy.signal import butter, sosfiltfilt
+
+from recordscan.core import roles
+from recordscan.core.record import Record
+from recordscan.errors import FitError, FitWarning, RecordScanError
+from recordscan.fit.circuit import (
+    OpenPhaseCircuit,
+    estimate_arc_current,
+    open_phase_circuit,
+    reactor_flux,
+    series_drop,
+    simulate_open_phase,
+)
+from recordscan.fit.result import (
+    FITTED,
+    PRIOR,
+    WEAK,
+    ArcFitResult,
+    ParameterEstimate,
+    plausible,
+)
+from recordscan.physics.arc import (
+    ArcParameters,
+    ConstantLength,
+    JohnsElongation,
+    LinearElongation,
+)
+
+if TYPE_CHECKING:  # pragma: no cover
+    from recordscan.analysis import Analysis
+    from recordscan.physics.line import LineDescription
+
+__all__ = ["IndirectFitOptions", "IndirectInputs", "fit_indirect", "prepare_indirect"]
+
+_LAWS = ("linear", "johns", "constant")
+
+
+@dataclass(frozen=True)
+class IndirectFitOptions:
+    """Settings of the indirect fit.
+
+    Attributes
+    ----------
+    law : str
+        ``"linear"`` (``l = l0 + v·t``; also what ``"auto"`` means here), ``"johns"``
+        (Johns et al. 1994 form with its hold time, rate fitted) or ``"constant"``.
+    fine_step_s : float
+        Largest step of the circuit simulation (the record interval is divided into
+        equal sub-steps no longer than this).
+    band_factor : float
+        Upper edge of the compared band as a multiple of the power frequency.
+    min_burning_cycles : float
+        Shortest arc episode that can be fitted.
+    tau0_bounds_s : tuple of float
+        Search range of τ0 in the extinction profile.
+    max_nfev : int
+        Optimiser evaluation budget of the voltage fit.
+    free_phasor : bool
+        Fit a free power-frequency phasor alongside the arc (absorbs an induced voltage the
+        series-drop correction missed, but also the level of the arc voltage: ``u0`` then
+        rests on the growth alone).
+    """
+
+    law: str = "linear"
+    fine_step_s: float = 25e-6
+    band_factor: float = 1.6
+    min_burning_cycles: float = 4.0
+    tau0_bounds_s: tuple[float, float] = (0.05e-3, 10e-3)
+    max_nfev: int = 200
+    free_phasor: bool = False
+
+
+@dataclass(frozen=True)
+class IndirectInputs:
+    """Everything the indirect fit takes from the records, the line and the event chain.
+
+    Attributes
+    ----------
+    t_s : numpy.ndarray
+        Record sample times [s] (local record).
+    v_fault_v : numpy.ndarray
+        Voltage of the open phase at the fault, estimated from the terminal(s): the
+        terminal voltage minus the series drop to the fault (:func:`series_drop`).
+    v_mean_v : numpy.ndarray
+        (3, n) phase voltages averaged along the line (they set the conductor charges).
+    h_a : numpy.ndarray
+        Healthy phases' share of the open phase's reactor current [A] (zeros without
+        reactors).
+    lam_self_vs : numpy.ndarray
+        Reactor flux of the open phase (start value of the simulation).
+    circuit : OpenPhaseCircuit
+        The open-phase circuit.
+    phase : str
+        Faulted (open) phase.
+    fault_distance_m : float
+        Fault distance from the local terminal used for the drop.
+    t_episode_s : float
+        Start of the fitted arc episode (secondary-arc start or last restrike).
+    t_burn_end_s : float
+        End of the burning period (the measured final extinction, or the end of the
+        observation when the extinction is censored).
+    extinction_s : float or None
+        Measured final extinction (None: not observed).
+    t_stop_s : float
+        End of the simulated window (before any reclose).
+    inception_s : float
+        Fault inception (for the reactor flux).
+    restrike_s : tuple of float
+        Restrikes found by the scan.
+    two_ended : bool
+        Whether the remote record was used.
+    notes : tuple of str
+        How the inputs were obtained (location source, restrikes ignored…).
+    source : str
+        Record path for messages.
+    """
+
+    t_s: np.ndarray
+    v_fault_v: np.ndarray
+    v_mean_v: np.ndarray
+    h_a: np.ndarray
+    lam_self_vs: np.ndarray
+    circuit: OpenPhaseCircuit
+    phase: str
+    fault_distance_m: float
+    t_episode_s: float
+    t_burn_end_s: float
+    extinction_s: float | None
+    t_stop_s: float
+    inception_s: float
+    restrike_s: tuple[float, ...]
+    two_ended: bool
+    notes: tuple[str, ...]
+    source: str
+
+
+def _channels(record: Record, table: dict[str, str], where: str, what: str) -> np.ndarray | None:
+    chans = []
+    for ph in ("A", "B", "C"):
+        ch = record.analog_by_role(table[ph])
+        if ch is None:
+            return None
+        chans.append(np.asarray(ch.values, dtype=float))
+    x = np.vstack(chans)
+    bad = ~np.all(np.isfinite(x), axis=0)
+    if bad.any():
+        idx = np.flatnonzero(~bad)
+        if idx.size < 10:
+            raise FitError(f"{where}: the {what} hold no valid samples")
+        t = np.asarray(record.t_s, dtype=float)
+        for r in range(3):
+            x[r, bad] = np.interp(t[bad], t[idx], x[r, idx])
+    return x
+
+
+def _end_quantities(
+    record: Record,
+    ld: LineDescription,
+    circ: OpenPhaseCircuit,
+    *,
+    end_idx: int,
+    distance_m: float,
+    inception_s: float,
+    where: str,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, bool]:
+    """Terminal voltages, fault-point voltage, line-mean voltages, far-end voltages."""
+    if not record.is_uniform:
+        raise FitError(f"{where}: the indirect fit needs a uniformly sampled record")
+    v = _channels(record, roles.V_LINE, where, "line-side voltages")
+    if v is None:
+        raise FitError(
+            f"{where}: the three line-side phase voltages (roles v_a, v_b, v_c) are needed "
+            "for an indirect fit; assign them with a recorder profile"
+        )
+    i = _channels(record, roles.I_LINE, where, "phase currents")
+    t = np.asarray(record.t_s, dtype=float)
+    k = circ.phase_idx
+    length = float(ld.length_m)
+    if i is None:
+        return v, v[k], v, v, False
+    gam = circ.gamma_ends_per_h[end_idx]
+    lam = None
+    if np.any(gam != 0.0):
+        lam = reactor_flux(t, v, t_leak_s=circ.t_leak_s, t_ref_s=inception_s)
+    a_m, b_m = series_drop(t, v, i, ld, gamma_end_per_h=gam, lam_abc_vs=lam)
+    d = distance_m
+    v_f = v[k] - (d * a_m[k] - 0.5 * d * d * b_m[k])
+    v_mean = v - (0.5 * length * a_m - length * length / 6.0 * b_m)
+    v_far = v - (length * a_m - 0.5 * length * length * b_m)
+    return v, v_f, v_mean, v_far, True
+
+
+def _restrike_real(t: np.ndarray, v: np.ndarray, t_r: float, cycle: float) -> bool:
+    """A restrike follows a recovered (high) open-phase voltage; a false one does not."""
+    before = (t >= t_r - 2.0 * cycle) & (t < t_r - 0.25 * cycle)
+    after = (t > t_r + 0.5 * cycle) & (t <= t_r + 2.5 * cycle)
+    if before.sum() < 4 or after.sum() < 4:
+        return True
+    rb = float(np.sqrt(np.mean(v[before] ** 2)))
+    ra = float(np.sqrt(np.mean(v[after] ** 2)))
+    return rb > 2.0 * ra
+
+
+def prepare_indirect(
+    record: Record,
+    line: LineDescription | str | Path,
+    *,
+    analysis: Analysis | None = None,
+    remote: Record | None = None,
+    options: IndirectFitOptions | None = None,
+) -> IndirectInputs:
+    """Collect the fit's inputs; raise :class:`FitError` with guidance when they are missing.
+
+    Parameters
+    ----------
+    record : Record
+        Local terminal record (roles assigned).
+    line : LineDescription or path
+        The line description.
+    analysis : Analysis, optional
+        The event chain of ``record`` (computed when not given).
+    remote : Record, optional
+        The remote terminal's record of the same event.
+    options : IndirectFitOptions, optional
+        Fit settings.
+
+    Returns
+    -------
+    IndirectInputs
+    """
+    from recordscan.analysis import analyse, pair
+    from recordscan.physics.line import load_line
+
+    opt = options or IndirectFitOptions()
+    where = record.provenance.path or "record"
+    ld = load_line(line) if isinstance(line, (str, Path)) else line
+    if analysis is None:
+        try:
+            analysis = analyse(record, line=ld, remote=remote)
+        except RecordScanError as exc:
+            raise FitError(f"{where}: the event chain could not be found ({exc})") from None
+    an = analysis
+    if an.event != "single_pole_trip" or an.faulted_phase is None:
+        raise FitError(
+            f"{where}: no secondary arc to fit: the record shows {an.event.replace('_', ' ')}; "
+            "the indirect fit needs a single-pole trip (check the record with "
+            "'recordscan scan')"
+        )
+    sa = an.secondary_arc_start_s
+    ext = an.extinction_s
+    if sa is None:
+        raise FitError(
+            f"{where}: no secondary arc was found after the single-pole trip of phase "
+            f"{an.faulted_phase} (the open-phase voltage shows no arc signature); there is "
+            "nothing to fit — check the event chain with 'recordscan scan'"
+        )
+    cycle = 1.0 / record.frequency_hz
+    notes: list[str] = []
+    circ = open_phase_circuit(ld, an.faulted_phase)
+    length = float(ld.length_m)
+    inc = an.inception.t_s if an.inception is not None else sa - 0.1
+    if an.location is not None and 0.0 <= an.location.distance_m <= length:
+        x = float(an.location.distance_m)
+        notes.append(f"fault at {x / 1e3:.1f} km ({an.location.method} location)")
+    else:
+        x = 0.5 * length
+        notes.append("fault location unknown: mid-line assumed for the series drop")
+    local_idx = 1 if (record.station and record.station == ld.to_station) else 0
+    v, v_f, v_mean, v_far, drop_ok = _end_quantities(
+        record, ld, circ, end_idx=local_idx, distance_m=x, inception_s=inc, where=where
+    )
+    if not drop_ok:
+        notes.append("no phase currents: the series drop to the fault is neglected")
+    t = np.asarray(record.t_s, dtype=float)
+    v_ends = [v, v_far]  # by local/remote
+    two = False
+    if remote is not None:
+        try:
+            pr = an.pairing if an.pairing is not None else pair(record, remote)
+            rw = remote.provenance.path or "remote record"
+            vr, vr_f, vr_mean, _vr_far, ok_r = _end_quantities(
+                remote, ld, circ, end_idx=1 - local_idx, distance_m=length - x,
+                inception_s=inc - pr.offset_s, where=rw,
+            )  # fmt: skip
+            tr = np.asarray(remote.t_s, dtype=float) + pr.offset_s
+            if tr[0] <= t[0] + 0.05 and tr[-1] >= min(t[-1], (ext or t[-1]) + 0.1):
+
+                def on_local(y: np.ndarray) -> np.ndarray:
+                    return np.interp(t, tr, y)
+
+                v_f = 0.5 * (v_f + on_local(vr_f))
+                v_mean = 0.5 * (v_mean + np.vstack([on_local(r) for r in vr_mean]))
+                v_ends[1] = np.vstack([on_local(r) for r in vr])
+                two = True
+            else:
+                notes.append("remote record does not cover the event: not used")
+        except RecordScanError as exc:
+            warnings.warn(f"remote record not used: {exc}", FitWarning, stacklevel=2)
+    k = circ.phase_idx
+    h = np.zeros_like(t)
+    lam_self = np.zeros_like(t)
+    if circ.has_reactors:
+        for e_rec, vv in enumerate(v_ends):
+            e_line = local_idx if e_rec == 0 else 1 - local_idx
+            gam = circ.gamma_ends_per_h[e_line]
+            if not np.any(gam != 0.0):
+                continue
+            lam = reactor_flux(t, vv, t_leak_s=circ.t_leak_s, t_ref_s=inc)
+            for j in range(3):
+                if j != k:
+                    h = h + gam[k, j] * lam[j]
+            lam_self = lam_self + 0.5 * lam[k]
+    restrikes = tuple(float(e.t_s) for e in an.restrikes)
+    before = [r for r in restrikes if r < (ext if ext is not None else math.inf)]
+    real = [r for r in before if _restrike_real(t, v_f, r, cycle)]
+    if len(real) < len(before):
+        notes.append(f"{len(before) - len(real)} restrike(s) of the scan not confirmed")
+    t_ep = max([sa, *real])
+    rc = an.reclose_s
+    t_obs_end = float(t[-1]) - cycle
+    if rc is not None and rc > t_ep:
+        t_obs_end = min(t_obs_end, rc - 0.25 * cycle)
+    if ext is not None:
+        t_burn_end = float(ext)
+        t_stop = min(ext + 4.0 * cycle, t_obs_end)
+    else:
+        t_burn_end = t_obs_end
+        t_stop = t_obs_end
+    if (t_burn_end - t_ep) < opt.min_burning_cycles * cycle:
+        raise FitError(
+            f"{where}: the secondary arc burned only {(t_burn_end - t_ep) * 1e3:.0f} ms from "
+            f"{'its last restrike' if real else 'the last pole opening'}; at least "
+            f"{opt.min_burning_cycles:g} cycles are needed to fit it"
+        )
+    return IndirectInputs(
+        t_s=t,
+        v_fault_v=v_f,
+        v_mean_v=v_mean,
+        h_a=h,
+        lam_self_vs=lam_self,
+        circuit=circ,
+        phase=an.faulted_phase,
+        fault_distance_m=x,
+        t_episode_s=float(t_ep),
+        t_burn_end_s=float(t_burn_end),
+        extinction_s=None if ext is None else float(ext),
+        t_stop_s=float(t_stop),
+        inception_s=float(inc),
+        restrike_s=restrikes,
+        two_ended=two,
+        notes=tuple(notes),
+        source=where,
+    )
+
+
+def _law(name: str, rate: float) -> Any:
+    if name == "linear":
+        return LinearElongation(v_m_per_s=max(rate, 0.0))
+    if name == "johns":
+        return JohnsElongation(rate_per_s=max(rate, 0.0))
+    return ConstantLength()
+
+
+class _Model:
+    """The open-phase circuit over the fit window, on a fine grid aligned with the record."""
+
+    def __init__(self, inp: IndirectInputs, opt: IndirectFitOptions, prior: ArcParameters):
+        self.inp, self.opt, self.prior = inp, opt, prior
+        t = inp.t_s
+        f = inp.circuit.frequency_hz
+        self.cycle = 1.0 / f
+        dt = float(t[1] - t[0])
+        fs = 1.0 / dt
+        k = inp.circuit.phase_idx
+        c = inp.circuit.c_f
+        others = [j for j in range(3) if j != k]
+        # healthy phases: smooth (they are power-frequency sinusoids; keeps noise out)
+        sos = butter(4, min(8.0 * f / (0.5 * fs), 0.9), output="sos")
+        v_s = sosfiltfilt(sos, inp.v_mean_v[others], axis=1)
+        b = c[k, others[0]] * v_s[0] + c[k, others[1]] * v_s[1]
+        i0 = int(np.searchsorted(t, inp.t_episode_s))
+        i1 = int(np.searchsorted(t, inp.t_stop_s, side="right"))
+        i1 = min(i1, t.size)
+        self.idx = np.arange(i0, i1)
+        self.t = t[i0:i1]
+        self.sub = max(1, math.ceil(dt / opt.fine_step_s - 1e-9))
+        nf = (self.t.size - 1) * self.sub + 1
+        self.t_fine = self.t[0] + np.arange(nf) * (dt / self.sub)
+        self.b = CubicSpline(t[i0:i1], b[i0:i1])(self.t_fine)
+        self.h = np.interp(self.t_fine, t[i0:i1], inp.h_a[i0:i1])
+        self.v_meas = inp.v_fault_v[i0:i1]
+        self.v0 = float(self.v_meas[0])
+        self.lam0 = float(inp.lam_self_vs[i0])
+        self.t_el0 = float(self.t[0] - inp.t_episode_s)
+        self.fs = fs
+        # compared band and the samples of the burning period used in the voltage fit
+        self.sos = butter(4, min(opt.band_factor * f / (0.5 * fs), 0.9), output="sos")
+        self.burn = (self.t >= inp.t_episode_s + 1.0 * self.cycle) & (
+            self.t <= inp.t_burn_end_s - 0.5 * self.cycle
+        )
+        w = 2.0 * math.pi * f
+        self.basis = np.vstack([np.cos(w * self.t), np.sin(w * self.t)]).T
+        self.v_band = sosfiltfilt(self.sos, self.v_meas)
+        self.scale = float(np.sqrt(np.mean(self.v_band[self.burn] ** 2))) or 1.0
+
+    def params(self, u0: float, tau0: float, alpha: float) -> ArcParameters:
+        p = self.prior
+        return ArcParameters(
+            u0_v_per_m=u0,
+            r0_ohm_per_m=p.r0_ohm_per_m,
+            tau0_s=tau0,
+            alpha=alpha,
+            l0_m=p.l0_m,
+            g_min_siemens_per_m=p.g_min_siemens_per_m,
+            dr_dt_ohm_per_m_s=p.dr_dt_ohm_per_m_s,
+        )
+
+    def run(self, ap: ArcParameters, law: Any, *, forced: bool) -> Any:
+        return simulate_open_phase(
+            self.t_fine,
+            self.b,
+            self.h,
+            self.inp.circuit,
+            params=ap,
+            law=law,
+            t_elongation_s=self.t_el0,
+            v0_v=self.v0,
+            lam0_vs=self.lam0,
+            forced_burning=forced,
+        )
+
+    def nuisance(self, v_model_band: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Residual in the compared band after the fitted power-frequency phasor."""
+        r = self.v_band[self.burn] - v_model_band[self.burn]
+        if not self.opt.free_phasor:
+            return r, np.zeros(2)
+        a = self.basis[self.burn]
+        coef, *_ = np.linalg.lstsq(a, r, rcond=None)
+        return r - a @ coef, coef
+
+
+class _VoltageProblem:
+    def __init__(self, model: _Model, law: str, tau0: float, alpha: float) -> None:
+        self.m, self.law, self.tau0, self.alpha = model, law, tau0, alpha
+        self.names = ["u0_v_per_m"] + ([] if law == "constant" else ["v_m_per_s"])
+
+    def from_x(self, x: np.ndarray) -> dict[str, float]:
+        out = {"u0_v_per_m": math.exp(float(x[0]))}
+        if self.law != "constant":
+            out["v_m_per_s"] = float(x[1])
+        return out
+
+    def simulate(self, p: dict[str, float], *, forced: bool = True) -> Any:
+        ap = self.m.params(p["u0_v_per_m"], self.tau0, self.alpha)
+        return self.m.run(ap, _law(self.law, p.get("v_m_per_s", 0.0)), forced=forced)
+
+    def v_record(self, resp: Any) -> np.ndarray:
+        return resp.v_v[:: self.m.sub]
+
+    def residual(self, x: np.ndarray) -> np.ndarray:
+        try:
+            resp = self.simulate(self.from_x(x))
+        except RecordScanError:
+            return np.full(int(self.m.burn.sum()), 1e3)
+        vb = sosfiltfilt(self.m.sos, self.v_record(resp))
+        r, _ = self.m.nuisance(vb)
+        r = r / self.m.scale
+        return np.where(np.isfinite(r), r, 1e3)
+
+
+def _fit_voltage(
+    model: _Model, law: str, tau0: float, alpha: float, start: dict[str, float]
+) -> tuple[_VoltageProblem, Any]:
+    prob = _VoltageProblem(model, law, tau0, alpha)
+    lo = [math.log(100.0)] + ([] if law == "constant" else [0.0])
+    hi = [math.log(20_000.0)] + ([] if law == "constant" else [100.0 if law == "linear" else 60.0])
+    best = None
+    rates = [start.get("v_m_per_s", 3.0)] if law == "constant" else [2.0, 8.0, 20.0]
+    for rate in rates:
+        x0 = [math.log(start["u0_v_per_m"])] + ([] if law == "constant" else [rate])
+        x0 = np.clip(np.array(x0), np.array(lo) + 1e-9, np.array(hi) - 1e-9)
+        sol = least_squares(
+            prob.residual,
+            x0,
+            bounds=(lo, hi),
+            x_scale="jac",
+            diff_step=1e-3,
+            max_nfev=model.opt.max_nfev,
+        )
+        if best is None or sol.cost < best.cost * (1 - 1e-9):
+            best = sol
+    return prob, best
+
+
+def _extinction_profile(
+    model: _Model, prob: _VoltageProblem, p: dict[str, float], t_ext: float
+) -> tuple[float, float, float | None, str]:
+    """τ0 that makes the model arc go out at ``t_ext``; its half-cycle band; the message."""
+    lo_b, hi_b = model.opt.tau0_bounds_s
+    grid = np.exp(np.linspace(math.log(lo_b), math.log(hi_b), 17))
+    law = _law(prob.law, p.get("v_m_per_s", 0.0))
+
+    def ext_at(tau0: float) -> float:
+        ap = model.params(p["u0_v_per_m"], tau0, prob.alpha)
+        e = model.run(ap, law, forced=False).extinction_s
+        return math.inf if e is None else e
+
+    ext = np.array([ext_at(float(x)) for x in grid])
+    d = ext - t_ext  # the arc lasts longer with a longer time constant (monotone in practice)
+    if np.all(d > 0):
+        return float(grid[0]), math.nan, None, "the model arc outlasts the measured one at all τ0"
+    if np.all(d < 0):
+        return float(grid[-1]), math.nan, None, "the model arc goes out too early at all τ0"
+    j = int(np.flatnonzero(d >= 0)[0])
+    a, b = math.log(grid[max(j - 1, 0)]), math.log(grid[j])
+    for _ in range(12):
+        mid = 0.5 * (a + b)
+        if ext_at(math.exp(mid)) - t_ext >= 0:
+            b = mid
+        else:
+            a = mid
+    tau0 = math.exp(0.5 * (a + b))
+    # τ0 band that keeps the predicted extinction within ± half a cycle of the measured one
+    half = 0.5 * model.cycle
+    fine = np.exp(np.linspace(math.log(tau0) - 0.7, math.log(tau0) + 0.7, 15))
+    ok = [float(x) for x in fine if abs(ext_at(float(x)) - t_ext) <= half]
+    band = (max(ok) - min(ok)) / 2.0 if len(ok) >= 2 else math.nan
+    e_fit = ext_at(tau0)
+    return tau0, band, (None if not math.isfinite(e_fit) else e_fit), "extinction matched"
+
+
+def fit_indirect(
+    record: Record,
+    line: LineDescription | str | Path,
+    *,
+    analysis: Analysis | None = None,
+    remote: Record | None = None,
+    prior: ArcParameters | None = None,
+    options: IndirectFitOptions | None = None,
+) -> ArcFitResult:
+    """Fit the secondary arc's parameters from terminal records and the line description.
+
+    Parameters
+    ----------
+    record : Record
+        The local terminal's record of a single-pole trip (roles assigned).
+    line : LineDescription or path
+        The line (capacitance matrix, length, reactors).
+    analysis : Analysis, optional
+        The scan of ``record`` (computed when not given).
+    remote : Record, optional
+        The remote terminal's record: the two ends' voltages are averaged (the average of a
+        linear profile along the open conductor is its mid-line value).
+    prior : ArcParameters, optional
+        Values of the parameters held at their priors (``r0``, ``α``, ``l0``, the extinction
+        thresholds) and the start of ``u0`` and ``τ0`` (default the published set of
+        Prikler et al., 14th PSCC, Sevilla, 2002).
+    options : IndirectFitOptions, optional
+        Fit settings.
+
+    Returns
+    -------
+    ArcFitResult
+        ``method="indirect"``, ``period="secondary"``; ``extinction_s`` is the fitted model's
+        extinction instant.
+
+    Raises
+    ------
+    FitError
+        No secondary arc (or too short a one) to fit, or missing voltages.
+    """
+    opt = options or IndirectFitOptions()
+    law = "linear" if opt.law == "auto" else opt.law
+    if law not in _LAWS:
+        raise FitError(f"unknown elongation law {opt.law!r}; use auto, {', '.join(_LAWS)}")
+    pr = prior or ArcParameters()
+    inp = prepare_indirect(record, line, analysis=analysis, remote=remote, options=opt)
+    model = _Model(inp, opt, pr)
+    if model.burn.sum() < 20:
+        raise FitError(f"{inp.source}: too few samples in the burning period to fit")
+    flags: list[str] = []
+    tau0, alpha = pr.tau0_s, pr.alpha
+    start = {"u0_v_per_m": pr.u0_v_per_m}
+    prob, sol = _fit_voltage(model, law, tau0, alpha, start)
+    p = prob.from_x(sol.x)
+    tau_band = math.nan
+    tau_status = PRIOR
+    ext_msg = "final extinction not observed (censored): τ0 held at its prior"
+    if inp.extinction_s is not None:
+        for _ in range(2):
+            tau0, tau_band, _e, ext_msg = _extinction_profile(model, prob, p, inp.extinction_s)
+            prob, sol = _fit_voltage(model, law, tau0, alpha, p)
+            p = prob.from_x(sol.x)
+        tau0, tau_band, _e, ext_msg = _extinction_profile(model, prob, p, inp.extinction_s)
+        tau_status = WEAK
+    else:
+        flags.append(ext_msg)
+    return _finish(model, prob, sol, p, tau0, tau_band, tau_status, ext_msg, flags, law)
+
+
+def _finish(
+    model: _Model,
+    prob: _VoltageProblem,
+    sol: Any,
+    p: dict[str, float],
+    tau0: float,
+    tau_band: float,
+    tau_status: str,
+    ext_msg: str,
+    flags: list[str],
+    law: str,
+) -> ArcFitResult:
+    inp, pr = model.inp, model.prior
+    fun, jac, x = sol.fun, sol.jac, sol.x
+    m, k = fun.size, x.size
+    s2 = float(np.sum(fun**2)) / max(m - k, 1)
+    try:
+        cov = np.linalg.inv(jac.T @ jac) * s2
+        sd = np.sqrt(np.clip(np.diag(cov), 0, None))
+        with np.errstate(invalid="ignore", divide="ignore"):
+            corr = np.nan_to_num(cov / np.outer(sd, sd))
+    except np.linalg.LinAlgError:
+        sd = np.full(k, np.inf)
+        corr = np.eye(k)
+        flags.append("Jacobian singular: the voltage cannot separate u0 and the elongation")
+    # band-limited residuals are strongly correlated: inflate by the samples per compared band
+    n_eff = max(m * 2.0 * model.opt.band_factor * model.inp.circuit.frequency_hz / model.fs, 2.0)
+    sd = sd * math.sqrt(m / n_eff)
+    est: dict[str, ParameterEstimate] = {}
+    for j, name in enumerate(prob.names):
+        val = p[name]
+        s = float(sd[j] * val) if name == "u0_v_per_m" else float(sd[j])
+        rel = s / abs(val) if val != 0 else math.inf
+        status = WEAK if (rel > 0.25 or not math.isfinite(rel)) else FITTED
+        if name == "v_m_per_s" and val < 0.5 and s < 0.5:
+            status = FITTED
+        est[name] = ParameterEstimate(name, val, s, status, plausible(name, val))
+    est["r0_ohm_per_m"] = ParameterEstimate("r0_ohm_per_m", pr.r0_ohm_per_m, None, PRIOR, True)
+    tau_sd = None if tau_status == PRIOR or not math.isfinite(tau_band) else tau_band
+    est["tau0_s"] = ParameterEstimate("tau0_s", tau0, tau_sd, tau_status, plausible("tau0_s", tau0))
+    est["alpha"] = ParameterEstimate("alpha", pr.alpha, None, PRIOR, True)
+    est["l0_m"] = ParameterEstimate("l0_m", pr.l0_m, None, PRIOR, True)
+    flags.append(
+        "l0 held at its prior: terminal voltages see only u0·l0 and v/l0; α, r0 and the "
+        "extinction thresholds held at their priors"
+    )
+    if tau_status == WEAK:
+        flags.append(
+            "τ0 set by the measured final extinction (one instant determines one combination "
+            "of τ0 and α): weakly determined"
+        )
+    if not inp.two_ended:
+        flags.append("single-ended: the open-phase voltage includes the induced voltage up to "
+                     "the fault (fitted as a power-frequency term)")  # fmt: skip
+    for n, e in est.items():
+        if not e.plausible:
+            flags.append(f"{n} = {e.value:.4g} lies outside the broad published range")
+    law_obj = _law(law, p.get("v_m_per_s", 0.0))
+    ap = model.params(p["u0_v_per_m"], tau0, pr.alpha)
+    free = model.run(ap, law_obj, forced=inp.extinction_s is None)
+    v_fit = free.v_v[:: model.sub]
+    vb = sosfiltfilt(model.sos, v_fit)
+    r_band, coef = model.nuisance(vb)
+    induced = model.basis @ coef
+    resid_rms = float(np.sqrt(np.mean(r_band**2)))
+    rel = resid_rms / model.scale
+    ext_model = free.extinction_s
+    success = bool(sol.success) and rel < 0.5
+    msg = f"{sol.message}; {ext_msg}"
+    if inp.extinction_s is not None and ext_model is None:
+        success = False
+        msg = f"fit not usable: the fitted model arc does not go out ({ext_msg})"
+    elif inp.extinction_s is not None and abs(ext_model - inp.extinction_s) > model.cycle:
+        flags.append(
+            f"the fitted model goes out {1e3 * (ext_model - inp.extinction_s):+.0f} ms from the "
+            "measured final extinction"
+        )
+    if not success:
+        if "not usable" not in msg:
+            msg = f"fit not usable: {msg}; relative residual {rel:.2f}"
+        warnings.warn(f"indirect arc fit did not converge ({msg})", FitWarning, stacklevel=3)
+    i_est = estimate_arc_current(
+        inp.t_s, inp.v_mean_v, inp.circuit, t_ref_s=inp.inception_s
+    )[model.idx]
+    u_meas = model.v_meas - induced
+    with np.errstate(divide="ignore", invalid="ignore"):
+        g_meas = np.where(np.abs(u_meas) > 0.05 * model.scale, i_est / u_meas, np.nan)
+        g_meas = np.where(g_meas > 0, g_meas, np.nan)
+    names = tuple(prob.names) + (("tau0_s",) if tau_status != PRIOR else ())
+    nn = len(names)
+    corr_full = np.eye(nn)
+    corr_full[: corr.shape[0], : corr.shape[1]] = corr
+    elong = {"v_m_per_s": p["v_m_per_s"]} if law == "linear" else {}
+    if law == "johns":
+        elong = {"t_hold_s": 0.1, "rate_per_s": p["v_m_per_s"]}
+    return ArcFitResult(
+        method="indirect",
+        period="secondary",
+        estimates=est,
+        elongation_law=law,
+        elongation_params=elong,
+        correlation=corr_full,
+        fitted_names=names,
+        residual_rms=resid_rms,
+        residual_rel=rel,
+        success=success,
+        message=msg,
+        flags=tuple(flags),
+        t_window_s=(float(model.t[0]), float(model.t[-1])),
+        extinction_s=ext_model,
+        n_samples=int(model.burn.sum()),
+        curves={
+            "t_s": model.t,
+            "i_a": i_est,
+            "u_measured_v": u_meas,
+            "u_fitted_v": v_fit,
+            "g_measured_siemens": g_meas,
+            "g_fitted_siemens": free.g_siemens[:: model.sub],
+            "l_m": free.l_m[:: model.sub],
+        },
+    )
