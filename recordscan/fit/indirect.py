@@ -235,7 +235,11 @@ def _end_quantities(
 
 
 def _restrike_real(t: np.ndarray, v: np.ndarray, t_r: float, cycle: float) -> bool:
-    """A restrike follows a recovered (high) open-phase voltage; a false one does not."""
+    """A restrike follows a recovered (high) open-phase voltage; a false one does not.
+
+    ``v`` is the power-frequency band of the open-phase voltage (the line's own ringing
+    after the pole openings is outside it).
+    """
     before = (t >= t_r - 2.0 * cycle) & (t < t_r - 0.25 * cycle)
     after = (t > t_r + 0.5 * cycle) & (t <= t_r + 2.5 * cycle)
     if before.sum() < 4 or after.sum() < 4:
@@ -356,7 +360,10 @@ def prepare_indirect(
             lam_self = lam_self + 0.5 * lam[k]
     restrikes = tuple(float(e.t_s) for e in an.restrikes)
     before = [r for r in restrikes if r < (ext if ext is not None else math.inf)]
-    real = [r for r in before if _restrike_real(t, v_f, r, cycle)]
+    fs = 1.0 / float(t[1] - t[0])
+    sos = butter(4, min(opt.band_factor * record.frequency_hz / (0.5 * fs), 0.9), output="sos")
+    v_band = sosfiltfilt(sos, v_f)
+    real = [r for r in before if _restrike_real(t, v_band, r, cycle)]
     if len(real) < len(before):
         notes.append(f"{len(before) - len(real)} restrike(s) of the scan not confirmed")
     t_ep = max([sa, *real])
@@ -723,9 +730,9 @@ def _finish(
         if "not usable" not in msg:
             msg = f"fit not usable: {msg}; relative residual {rel:.2f}"
         warnings.warn(f"indirect arc fit did not converge ({msg})", FitWarning, stacklevel=3)
-    i_est = estimate_arc_current(
-        inp.t_s, inp.v_mean_v, inp.circuit, t_ref_s=inp.inception_s
-    )[model.idx]
+    i_est = estimate_arc_current(inp.t_s, inp.v_mean_v, inp.circuit, t_ref_s=inp.inception_s)[
+        model.idx
+    ]
     u_meas = model.v_meas - induced
     with np.errstate(divide="ignore", invalid="ignore"):
         g_meas = np.where(np.abs(u_meas) > 0.05 * model.scale, i_est / u_meas, np.nan)
