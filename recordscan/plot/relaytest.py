@@ -40,14 +40,16 @@ def plot_latency_histogram(
     else:
         ax.text(0.5, 0.5, "no correctly permitted case", ha="center", transform=ax.transAxes)
     ax.axvline(1.0, color="#2166ac", ls=":", lw=1.2)
+    ax.set_xlim(left=0.0)  # room left of the floor line for its label
     ax.text(
         1.0,
         0.95,
-        " one-cycle floor\n (derived)",
+        "one-cycle floor \n(derived) ",
         transform=ax.get_xaxis_transform(),
         fontsize=7,
         color="#2166ac",
         va="top",
+        ha="right",
     )
     if limit_cycles is not None:
         ax.axvline(limit_cycles, color="#b2182b", ls="--", lw=1.2)
@@ -82,7 +84,8 @@ def plot_case_timelines(cases: Sequence[Mapping[str, Any]], *, ax: Axes | None =
         ext = c.get("extinction_s")
         lp = c.get("latest_permit_s")
         end = ext if ext is not None else (lp or 1.0)
-        start = min([*c.get("restrike_s", []), end, 0.0] or [0.0])
+        inc = c.get("inception_s")
+        start = min([*c.get("restrike_s", []), end, 0.0 if inc is None else inc])
         ax.barh(y, end - start, left=start, height=0.35, color="#fdb863", edgecolor="none")
         for r in c.get("restrike_s") or []:
             ax.plot([r, r], [y - 0.25, y + 0.25], color="#d6604d", lw=1.4)

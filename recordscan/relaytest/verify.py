@@ -123,6 +123,8 @@ class CaseVerdict:
             "latency_s": self.latency_s,
             "latency_cycles": self.latency_cycles,
             "detail": self.detail,
+            "inception_s": self.truth.inception_s,
+            "secondary_arc_start_s": self.truth.secondary_arc_start_s,
             "extinction_s": self.truth.extinction_s,
             "restrike_s": list(self.truth.restrike_s),
             "latest_permit_s": self.truth.latest_permit_s,
@@ -132,6 +134,7 @@ class CaseVerdict:
             else [],
             "alignment_offset_s": self.response.offset_s if self.response else None,
             "source": self.response.source if self.response else None,
+            "notes": self.truth.notes,
         }
 
 

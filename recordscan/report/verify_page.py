@@ -69,10 +69,12 @@ def render_verify_page(report: Mapping[str, Any], *, figures: Mapping[str, bytes
         bad = c["verdict"] in ("premature_permit", "missed_permit", "no_response")
         lat_txt = "—" if c["latency_s"] is None else f"{c['latency_s'] * 1e3:.1f} ms"
         fp = "—" if c["first_permit_s"] is None else f"{c['first_permit_s']:.4f} s"
+        notes = f"<br><span class='muted'>{_esc(c['notes'])}</span>" if c.get("notes") else ""
         parts.append(
-            f"<tr><td>{_esc(c['case'])}</td><td>{_esc(c['expected'])}</td>"
+            f"<tr><td style='white-space:nowrap'>{_esc(c['case'])}</td>"
+            f"<td>{_esc(c['expected'])}</td>"
             f"<td class='{'bad' if bad else 'good'}'>{_esc(c['verdict'].replace('_', ' '))}</td>"
-            f"<td class='num'>{fp}</td><td class='num'>{lat_txt}</td><td>{_esc(c['detail'])}</td></tr>"
+            f"<td class='num'>{fp}</td><td class='num'>{lat_txt}</td><td>{_esc(c['detail'])}{notes}</td></tr>"
         )
     parts.append("</table>")
     if report.get("unknown_cases"):
