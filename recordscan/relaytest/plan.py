@@ -26,6 +26,7 @@ from __future__ import annotations
 import dataclasses
 import itertools
 import math
+import os
 import sys
 from collections.abc import Mapping
 from dataclasses import dataclass, field
@@ -204,7 +205,7 @@ class PlanCase:
         """One line describing the case (for the manifest's notes)."""
         parts = [self.label] if self.label else []
         parts.append(self.line_name)
-        parts += [_show(k, v) for k, v in self.settings.items()]
+        parts += [_show(k, v) for k, v in self.settings.items() if k not in ("line_file", "vt")]
         parts.append(f"VT {self.scenario.instruments.vt}")
         return "; ".join(p for p in parts if p)
 
@@ -331,10 +332,10 @@ def _base(w: _Where, t: Mapping[str, Any], plan_dir: Path) -> Scenario:
         if "output" in data:
             data = {k: v for k, v in data.items() if k != "output"}
     inline = {k: v for k, v in t.items() if k != "scenario"}
-    if "line" in inline and isinstance(inline["line"], Mapping) and "file" in inline["line"]:
-        f = inline["line"]["file"]
-        if isinstance(f, str) and not Path(f).is_absolute():
-            inline["line"] = {**inline["line"], "file": str(plan_dir / f)}
+    line_t = inline.get("line")
+    if ref is not None and isinstance(line_t, Mapping) and isinstance(line_t.get("file"), str):
+        # an inline line file is relative to the plan, not to the referenced scenario
+        inline["line"] = {**line_t, "file": os.path.abspath(plan_dir / line_t["file"])}
     inst = inline.get("instruments", {})
     if isinstance(inst, Mapping):
         owned = sorted(set(inst) & set(_PLAYBACK_OWNED))
@@ -420,12 +421,18 @@ def _case_scenario(
     seed: int,
     playback: PlaybackSettings,
     cache: dict[str, Any],
+    plan_dir: Path,
 ) -> tuple[Scenario, Any]:
     """The scenario of one case and its resolved line."""
     rep = dataclasses.replace
     s = settings
     sc = base
-    line = _line_of(base, cache)
+    if "line_file" in s:
+        f = Path(s["line_file"])
+        f = f if f.is_absolute() else plan_dir / f
+        sc = rep(sc, line=LineSettings(file=str(f)), reactor_local=ReactorSettings(),
+                 reactor_remote=ReactorSettings())  # fmt: skip
+    line = _line_of(sc, cache)
     # the line: voltage class and length
     if "voltage_kv" in s or "length_km" in s:
         length_m = float(s.get("length_km", line.length_m / 1e3)) * 1e3
@@ -659,9 +666,15 @@ def parse_plan(
         case_seed = int(rng.integers(0, 2**31 - 1))
         try:
             sc, line = _case_scenario(
-                base, settings, name=case_id, seed=case_seed, playback=playback, cache=cache
+                base,
+                settings,
+                name=case_id,
+                seed=case_seed,
+                playback=playback,
+                cache=cache,
+                plan_dir=plan_dir,
             )
-            max_dead = reclose.max_dead_time_s
+            max_dead = settings.get("max_dead_time_s", reclose.max_dead_time_s)
             if max_dead is None:
                 max_dead = default_dead_time_s(float(line.voltage_v), line.dead_time_s)
             close = (

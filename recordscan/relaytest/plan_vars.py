@@ -27,7 +27,7 @@ class Variable:
     """A plan variable: what it may hold and what it changes in the scenario."""
 
     name: str
-    kind: str  # "num", "choice", "bool"
+    kind: str  # "num", "choice", "bool", "file"
     lo: float | None = None
     hi: float | None = None
     lo_open: bool = False
@@ -44,6 +44,8 @@ def _num(name: str, lo: float | None, hi: float | None, meaning: str, **kw: Any)
 VARIABLES: dict[str, Variable] = {
     v.name: v
     for v in (
+        Variable("line_file", "file",
+                 meaning="line description file (relative to the plan), instead of the base line"),
         Variable("voltage_kv", "choice", choices=(345, 400, 500, 765),
                  meaning="voltage class: the line becomes typical data of that class"),
         _num("length_km", 0.0, 1500.0, "line length", lo_open=True),
@@ -69,6 +71,7 @@ VARIABLES: dict[str, Variable] = {
         _num("recovery_rate_scale", 0.0, 100.0, "dielectric recovery speed (lower: more "
              "restrikes)", lo_open=True),
         Variable("vt", "choice", choices=VT_KINDS, meaning="line VT kind"),
+        _num("max_dead_time_s", 0.1, 10.0, "longest allowed dead time (overrides [reclose])"),
         _num("snr_db", 10.0, 120.0, "noise level, or \"none\"", also=("none",)),
     )
 }  # fmt: skip
@@ -88,6 +91,10 @@ def _check_value(w: _Where, key: str, var: Variable, v: Any) -> Any:
     if var.kind == "bool":
         if not isinstance(v, bool):
             raise w.fail(key, f"expected true or false, got {v!r}")
+        return v
+    if var.kind == "file":
+        if not isinstance(v, str) or not v.strip():
+            raise w.fail(key, f"expected a file name, got {v!r}")
         return v
     if var.kind == "choice":
         if isinstance(v, str) and var.name == "phase":
