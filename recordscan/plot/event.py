@@ -60,14 +60,20 @@ def instants(result: Mapping[str, Any]) -> list[tuple[str, float, str, str]]:
 
 
 def mark_instants(
-    ax: Axes, result: Mapping[str, Any], *, t_lim: Sequence[float] | None = None
+    ax: Axes,
+    result: Mapping[str, Any],
+    *,
+    t_lim: Sequence[float] | None = None,
+    labels: bool = True,
 ) -> None:
-    """Draw and label every detected instant on ``ax`` (labels staggered to stay legible)."""
+    """Draw every detected instant on ``ax``; label them (staggered) when ``labels``."""
     lo, hi = ax.get_xlim() if t_lim is None else t_lim
     shown = [x for x in instants(result) if lo <= x[1] <= hi]
     for k, (label, t, colour, style) in enumerate(shown):
         ax.axvline(t, color=colour, linestyle=style, linewidth=1.1, alpha=0.9)
-        y = 0.98 - 0.09 * (k % 4)
+        if not labels:
+            continue
+        y = 0.98 - 0.11 * (k % 5)
         ax.text(
             t,
             y,
@@ -164,9 +170,9 @@ def plot_event(record: Record, result: Mapping[str, Any], *, ax: Axes | None = N
                 transform=axes[2].transAxes,
                 fontsize=8,
             )
-    for a in axes:
+    for k, a in enumerate(axes):
         a.grid(alpha=0.3)
-        mark_instants(a, result, t_lim=(float(record.t_s[0]), float(record.t_s[-1])))
+        mark_instants(a, result, t_lim=(float(record.t_s[0]), float(record.t_s[-1])), labels=k == 0)
     fig.tight_layout()
     return fig
 
