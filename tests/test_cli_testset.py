@@ -91,3 +91,41 @@ def test_bad_plan_exit_2_nothing_written(
     assert len(lines) == 1 and lines[0].startswith("recordscan: error: ") and str(plan) in lines[0]
     assert "Traceback" not in err and out == ""
     assert not out_dir.exists()
+
+
+DEMO = Path(__file__).resolve().parents[1] / "sample_records" / "relaytest"
+
+
+def test_demo_plan_and_stand_in_responses(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    """The two README commands on the demo: every verdict appears once as documented.
+
+    The committed stand-in responses must still be what ``make_demo_responses.py`` writes
+    from the demo set's truth (if the simulator changes, regenerate them).
+    """
+    import csv
+    import importlib.util
+
+    out_dir = tmp_path / "playback"
+    code, out, err = run(["testset", str(DEMO / "demo-plan.toml"), "--out", str(out_dir)], capsys)
+    assert code == 0, err
+    manifest = json.loads((out_dir / "manifest.json").read_text(encoding="utf-8"))
+    spec = importlib.util.spec_from_file_location("mdr", DEMO / "make_demo_responses.py")
+    assert spec is not None and spec.loader is not None
+    mdr = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(mdr)
+    with (DEMO / "demo-responses.csv").open(encoding="utf-8", newline="") as fh:
+        committed = list(csv.DictReader(fh))
+    assert committed == mdr.rows(manifest)
+    code, out, err = run(
+        ["verify", str(DEMO / "demo-responses.csv"), "--manifest",
+         str(out_dir / "manifest.json"), "--json"],
+        capsys,
+    )  # fmt: skip
+    assert code == 0, err
+    counts = json.loads(out)["counts"]
+    assert counts == {
+        "premature_permit": 1, "missed_permit": 1, "no_response": 1,
+        "correct_permit": 7, "correct_block": 2, "cases": 12,
+    }  # fmt: skip
