@@ -233,3 +233,27 @@ def test_unknown_instants_and_single_sample(tmp_path: Path) -> None:
     back = read(write(rec, tmp_path / "one", data_format="ASCII")[0], assign_roles=False)
     assert back.start_ns is None and back.trigger_ns is None
     assert back.n_samples == 1 and back.analog[0].values[0] == -1.0
+
+
+def _sha_of(path: str) -> str:
+    return read(path, assign_roles=False).provenance.sha256
+
+
+def test_read_in_forked_worker_after_parent_read(tmp_path: Path) -> None:
+    # the SHA-256 runs on a background thread; a forked child (multiprocessing on Linux)
+    # does not inherit that thread and must start its own instead of waiting forever
+    import hashlib
+    import multiprocessing
+    import warnings
+
+    if "fork" not in multiprocessing.get_all_start_methods():
+        pytest.fail("this check needs the fork start method (Linux)")
+    t = np.arange(50_000) / 1e4  # big enough for the background hash
+    files = write(Record(t_s=t, analog=(AnalogChannel("IA", np.sin(t), unit="A"),)), tmp_path / "f")
+    expected = hashlib.sha256(files[0].read_bytes() + files[1].read_bytes()).hexdigest()
+    assert _sha_of(str(files[0])) == expected  # starts the thread in this process
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", DeprecationWarning)  # fork with threads (3.12+)
+        with multiprocessing.get_context("fork").Pool(1) as pool:
+            result = pool.map_async(_sha_of, [str(files[0])]).get(timeout=60)
+    assert result == [expected]

@@ -7,12 +7,13 @@ Only numpy is imported here; pandas is imported lazily for ASCII data files, so 
 from __future__ import annotations
 
 import hashlib
+import os
 import queue
 import re
 import threading
 import unicodedata
 from pathlib import Path
-from typing import TYPE_CHECKING, Any
+from typing import Any
 
 from recordscan.core.record import Provenance, Record
 from recordscan.errors import FormatError, MissingFileError
@@ -20,9 +21,6 @@ from recordscan.io.comtrade.cff import split_cff
 from recordscan.io.comtrade.cfg import Config, parse_cfg
 from recordscan.io.comtrade.convert import to_record
 from recordscan.io.comtrade.dat import RawData, decode_ascii, decode_binary
-
-if TYPE_CHECKING:  # pragma: no cover
-    import os
 
 _EXTS = (".cfg", ".dat", ".cff", ".hdr", ".inf")
 #: legacy encodings tried, in order, when a configuration is not valid UTF-8
@@ -258,6 +256,16 @@ def decode_dat(cfg: Config, data: bytes, *, name: str, data_format: str) -> RawD
 _HASH_JOBS: queue.SimpleQueue[tuple[Any, bytes, threading.Event]] | None = None
 _HASH_LOCK = threading.Lock()
 _SMALL = 1 << 16
+
+
+def _forget_worker() -> None:
+    """In a forked child the worker thread does not exist: start a new one on demand."""
+    global _HASH_JOBS
+    _HASH_JOBS = None
+
+
+if hasattr(os, "register_at_fork"):
+    os.register_at_fork(after_in_child=_forget_worker)
 
 
 def _hash_worker(jobs: queue.SimpleQueue[tuple[Any, bytes, threading.Event]]) -> None:
