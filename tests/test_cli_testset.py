@@ -129,3 +129,29 @@ def test_demo_plan_and_stand_in_responses(
         "premature_permit": 1, "missed_permit": 1, "no_response": 1,
         "correct_permit": 7, "correct_block": 2, "cases": 12,
     }  # fmt: skip
+
+
+def test_failing_case_is_listed_and_the_set_continues(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str], monkeypatch: pytest.MonkeyPatch
+) -> None:
+    import recordscan.synth.generate as gen
+    from recordscan.errors import ModelError
+
+    real = gen.simulate
+
+    def flaky(scenario, **kw):  # type: ignore[no-untyped-def]
+        if scenario.name == "case-002":
+            raise ModelError("solver diverged (injected by the test)")
+        return real(scenario, **kw)
+
+    monkeypatch.setattr(gen, "simulate", flaky)
+    out_dir = tmp_path / "set"
+    code, out, err = run(["testset", str(write_plan(tmp_path)), "--out", str(out_dir)], capsys)
+    assert code == 2
+    assert err.strip().splitlines()[-1].startswith("recordscan: error: 1 of 3 case(s)")
+    assert "FAILED case-002" in out
+    doc = json.loads((out_dir / "manifest.json").read_text(encoding="utf-8"))
+    assert [c["case"] for c in doc["cases"]] == ["case-001", "case-003"]
+    assert doc["failed_cases"][0]["case"] == "case-002"
+    assert "injected by the test" in doc["failed_cases"][0]["error"]
+    assert not (out_dir / "case-002.cfg").exists()

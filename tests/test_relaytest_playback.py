@@ -301,3 +301,15 @@ def test_missing_base_scenario_file(tmp_path: Path) -> None:
     p = write_plan(tmp_path, 'seed = 1\n[base]\nscenario = "nowhere.toml"\n')
     with pytest.raises(FormatError, match=r"base\.scenario: scenario file not found"):
         load_plan(p)
+
+
+def test_documented_example_plan_parses(tmp_path: Path) -> None:
+    """The example plan in docs/relaytest.md is a valid plan (paths as from sample_records)."""
+    root = Path(__file__).resolve().parents[1]
+    doc = (root / "docs" / "relaytest.md").read_text(encoding="utf-8")
+    text = doc.split("```toml\n", 1)[1].split("```", 1)[0]
+    text = text.replace('"../', f'"{(root / "sample_records").as_posix()}/')
+    plan = load_plan(write_plan(tmp_path, text))
+    assert len(plan.cases) == 2 + 3 * 2 * 2
+    assert plan.cases[1].scenario.reactor_local.mode == "given"
+    assert plan.cases[0].scenario.fault.permanent
