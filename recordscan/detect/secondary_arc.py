@@ -435,40 +435,35 @@ def detect_extinction(
         method = "arc-voltage harmonic signature, refined on the recovery-voltage fit"
     seg_lo = q.segment_at(kc).start_idx
     lo = max(a - int(np.ceil(n)), seg_lo)
-    ref = _refine(v, t, kc=kc, n=n, f_hz=q.f_hz, lo=lo, hi=b, arc_amp=arc_amp)
     dt = 1.0 / q.segment_at(kc).rate_hz
     m = q.hratio_cycles(q.segment_at(kc).rate_hz)
-    if ref is not None and not kc - m * n - 2 <= ref[0] <= kc:
-        # the harmonic window still held arc samples at kc: the fit found a departure
-        # that is not the extinction (recovery voltage hardly larger than the arc voltage)
-        ref = None
-    if ref is None and s.size:
-        # fall back on the harmonic ratio: it falls from its burning level to about half
-        # when the window holds about half recovery (the larger the recovery, the sooner)
-        h_b = finite_median(tr.hratio[tr.burning])
-        seg_h = tr.hratio[max(kc - a - int(m * n) - 2, 0) : kc - a + 1]
-        below = np.flatnonzero(~(seg_h >= 0.5 * h_b))
-        if below.size:
-            k_half = max(kc - int(m * n) - 2, a) + int(below[0])
-            k_ext = max(k_half - int(m * n / 4), lo)
-            ref_h = (k_ext, float("nan"))
-        else:
-            ref_h = None
-    else:
-        ref_h = None
+    win = max(1, round(m * n))
+    # The causal harmonic window is wholly clean one window after the extinction: find where
+    # H settled on its recovered floor (a long arc's voltage can be only mildly distorted,
+    # so H may fall below the clear threshold well before the arc goes out).
+    tail = tr.hratio[kc - a :]
+    k_f = kc
+    if tail.size > win:
+        h_floor = finite_median(tail[win:])
+        head = tr.hratio[max(kc - a - win, 0) : kc - a] if s.size else tail[:win]
+        head = head[np.isfinite(head)]
+        h_ref = float(np.max(head)) if head.size else float("nan")
+        if np.isfinite(h_floor) and np.isfinite(h_ref):
+            level_h = h_floor + 0.15 * max(h_ref - h_floor, 0.0)
+            below = np.flatnonzero(tail[: 3 * win] <= level_h)
+            k_f = kc + (int(below[0]) if below.size else 0)
+    k_est = max(k_f - win + 1, lo)
+    ref = _refine(v, t, kc=k_f, n=n, f_hz=q.f_hz, lo=lo, hi=b, arc_amp=arc_amp)
+    if ref is not None and not k_est - 0.3 * n <= ref[0] <= k_f:
+        ref = None  # the fit's departure is not where the harmonic window says
     if ref is not None:
         k_ext, thr = ref
         unc = max(dt, 0.05 * q.cycle_s)
-    elif ref_h is not None:
-        k_ext, thr = ref_h
-        unc = 0.25 * m * q.cycle_s
-        warns.append("extinction instant from the fall of the harmonic ratio (not refined)")
     else:
-        k_ext, thr = max(kc - int(n / 2), lo), float("nan")
-        unc = 0.5 * q.cycle_s
-        warns.append(
-            "extinction instant not refined (recovery voltage too short or too like the arc)"
-        )
+        k_ext, thr = k_est, float("nan")
+        unc = 0.25 * q.cycle_s
+        warns.append("extinction instant from the harmonic window alone (not refined)")
+    kc = k_f
     if s.size == 0:
         k_ext = max(k_ext, q.idx(arc_start_s))
     if k_ext < seg_lo or kc - seg_lo < n:
@@ -515,7 +510,7 @@ def detect_extinction(
             ),
         )
     if ref is None:
-        conf = min(conf, 0.6 if ref_h is None else 0.75)
+        conf = min(conf, 0.75)
     summary = (
         f"arc-voltage harmonic ratio fell from {h_before:.2f} to {h_after:.2f}; open-phase "
         f"voltage went from {lvl_before:.1%} to {lvl_after:.1%} of the healthy phases at "
