@@ -181,11 +181,15 @@ def test_write_is_atomic_on_error(tmp_path: Path) -> None:
 def records(draw: st.DrawFn) -> Record:
     n1 = draw(st.integers(1, 40))
     n2 = draw(st.integers(0, 20))
-    rate = draw(st.sampled_from([600.0, 1000.0, 1200.0, 4800.0, 10000.0]))
+    rate = draw(st.sampled_from([600.0, 1000.0, 1200.0, 4800.0, 10000.0, 15360.0]))
     t = np.arange(n1) / rate
     if n2:
         gap = draw(st.floats(0.01, 3.0))
         t = np.concatenate([t, t[-1] + gap + np.arange(n2) / rate])
+    if draw(st.booleans()) and n1 > 2:
+        # irregular sampling (whole microseconds): only timestamps can carry it
+        steps = draw(st.lists(st.integers(1, 5000), min_size=n1 - 1, max_size=n1 - 1))
+        t = np.concatenate([[0.0], np.cumsum(steps) * 1e-6])
     n = t.size
     n_an = draw(st.integers(0, 3))
     elements = st.one_of(
