@@ -38,14 +38,14 @@ import numpy as np
 from recordscan.errors import FormatError, ModelError, RecordScanError
 from recordscan.relaytest.plan_vars import (
     VARIABLES,
-    _check_value,
-    _Draw,
-    _num_key,
-    _parse_draw,
-    _table,
-    _unknown,
-    _variable,
-    _Where,
+    Draw,
+    Where,
+    check_value,
+    get_table,
+    get_variable,
+    num_key,
+    parse_draw,
+    reject_unknown,
 )
 from recordscan.synth.scenario import (
     DATA_FORMATS,
@@ -239,16 +239,16 @@ _PLAYBACK_KEYS = (
 )  # fmt: skip
 
 
-def _playback(w: _Where, t: Mapping[str, Any]) -> PlaybackSettings:
-    _unknown(w, t, "playback", _PLAYBACK_KEYS)
+def _playback(w: Where, t: Mapping[str, Any]) -> PlaybackSettings:
+    reject_unknown(w, t, "playback", _PLAYBACK_KEYS)
     p = "playback"
-    vt_p = _num_key(w, t, p, "vt_primary_kv", None, lo=1.0, hi=2000.0)
-    vt_s = _num_key(w, t, p, "vt_secondary_v", 115.0, lo=100.0, hi=120.0)
-    ct_p = _num_key(w, t, p, "ct_primary_a", 2000.0, lo=1.0, hi=100_000.0)
-    ct_s = _num_key(w, t, p, "ct_secondary_a", 1.0, lo=1.0, hi=5.0)
-    rate = _num_key(w, t, p, "rate_hz", 4000.0, lo=500.0, hi=20_000.0)
-    pre = _num_key(w, t, p, "pre_fault_s", 0.1, lo=0.02, hi=5.0)
-    length = _num_key(w, t, p, "record_length_s", None, lo=0.1, hi=20.0)
+    vt_p = num_key(w, t, p, "vt_primary_kv", None, lo=1.0, hi=2000.0)
+    vt_s = num_key(w, t, p, "vt_secondary_v", 115.0, lo=100.0, hi=120.0)
+    ct_p = num_key(w, t, p, "ct_primary_a", 2000.0, lo=1.0, hi=100_000.0)
+    ct_s = num_key(w, t, p, "ct_secondary_a", 1.0, lo=1.0, hi=5.0)
+    rate = num_key(w, t, p, "rate_hz", 4000.0, lo=500.0, hi=20_000.0)
+    pre = num_key(w, t, p, "pre_fault_s", 0.1, lo=0.02, hi=5.0)
+    length = num_key(w, t, p, "record_length_s", None, lo=0.1, hi=20.0)
     rev = str(t.get("revision", "2013"))
     if rev not in REVISIONS:
         raise w.fail("playback.revision", f"must be one of {', '.join(REVISIONS)}, got {rev!r}")
@@ -281,11 +281,11 @@ def _playback(w: _Where, t: Mapping[str, Any]) -> PlaybackSettings:
     )
 
 
-def _reclose(w: _Where, t: Mapping[str, Any]) -> RecloseLimits:
-    _unknown(w, t, "reclose", ("max_dead_time_s", "close_time_s"))
+def _reclose(w: Where, t: Mapping[str, Any]) -> RecloseLimits:
+    reject_unknown(w, t, "reclose", ("max_dead_time_s", "close_time_s"))
     return RecloseLimits(
-        max_dead_time_s=_num_key(w, t, "reclose", "max_dead_time_s", None, lo=0.1, hi=10.0),
-        close_time_s=_num_key(w, t, "reclose", "close_time_s", None, lo=0.0, hi=1.0),
+        max_dead_time_s=num_key(w, t, "reclose", "max_dead_time_s", None, lo=0.1, hi=10.0),
+        close_time_s=num_key(w, t, "reclose", "close_time_s", None, lo=0.0, hi=1.0),
     )
 
 
@@ -308,8 +308,8 @@ def _merge(a: Mapping[str, Any], b: Mapping[str, Any]) -> dict[str, Any]:
     return out
 
 
-def _base(w: _Where, t: Mapping[str, Any], plan_dir: Path) -> Scenario:
-    _unknown(w, t, "base", ("scenario", *_BASE_TABLES, *_BASE_TOP))
+def _base(w: Where, t: Mapping[str, Any], plan_dir: Path) -> Scenario:
+    reject_unknown(w, t, "base", ("scenario", *_BASE_TABLES, *_BASE_TOP))
     data: dict[str, Any] = {}
     base_dir = plan_dir
     where = f"{w.path}: base"
@@ -549,10 +549,10 @@ def _needed_length_s(sc: Scenario, line: Any, max_dead_s: float, close_s: float)
 
 
 def _expand(
-    w: _Where, data: Mapping[str, Any]
-) -> list[tuple[str, str, dict[str, Any], Mapping[str, _Draw]]]:
+    w: Where, data: Mapping[str, Any]
+) -> list[tuple[str, str, dict[str, Any], Mapping[str, Draw]]]:
     """(origin, label, fixed settings, draws) per case, in order."""
-    out: list[tuple[str, str, dict[str, Any], Mapping[str, _Draw]]] = []
+    out: list[tuple[str, str, dict[str, Any], Mapping[str, Draw]]] = []
     cases = data.get("case", [])
     if not isinstance(cases, list) or not all(isinstance(c, Mapping) for c in cases):
         raise w.fail("case", "use [[case]] tables")
@@ -565,10 +565,10 @@ def _expand(
             if name == "label":
                 continue
             key = f"case[{k}].{name}"
-            fixed[name] = _check_value(w, key, _variable(w, key, name), v)
+            fixed[name] = check_value(w, key, get_variable(w, key, name), v)
         out.append((f"case table {k}", label, fixed, {}))
-    grid = _table(w, data, "grid")
-    rnd = _table(w, data, "random")
+    grid = get_table(w, data, "grid")
+    rnd = get_table(w, data, "random")
     if not grid and not rnd:
         if not cases:
             out.append(("base scenario", "", {}, {}))
@@ -576,12 +576,12 @@ def _expand(
     axes: list[tuple[str, list[Any]]] = []
     for name, vals in grid.items():
         key = f"grid.{name}"
-        var = _variable(w, key, name)
+        var = get_variable(w, key, name)
         if not isinstance(vals, list) or not vals:
             raise w.fail(key, "expected a non-empty list of values")
-        axes.append((name, [_check_value(w, key, var, v) for v in vals]))
+        axes.append((name, [check_value(w, key, var, v) for v in vals]))
     n_draws = 1
-    draws: dict[str, _Draw] = {}
+    draws: dict[str, Draw] = {}
     if rnd:
         n = rnd.get("n")
         if isinstance(n, bool) or not isinstance(n, int) or not 1 <= n <= 10_000:
@@ -592,7 +592,7 @@ def _expand(
                 continue
             if name in grid:
                 raise w.fail(f"random.{name}", "is also a grid axis; give it in one place")
-            draws[name] = _parse_draw(w, name, spec)
+            draws[name] = parse_draw(w, name, spec)
     points = list(itertools.product(*(vals for _, vals in axes))) if axes else [()]
     if len(points) * n_draws > 10_000:
         raise w.fail("grid", f"{len(points) * n_draws} cases is too many (at most 10000)")
@@ -629,9 +629,9 @@ def parse_plan(
         Unknown keys, wrong types, values out of range, cases that cannot be set up; the
         message names the file and the key.
     """
-    w = _Where(where)
+    w = Where(where)
     plan_dir = base_dir if base_dir is not None else Path(".")
-    _unknown(w, data, "", ("schema", "name", "description", "seed", "base", "playback",
+    reject_unknown(w, data, "", ("schema", "name", "description", "seed", "base", "playback",
                            "reclose", "grid", "random", "case"))  # fmt: skip
     schema = data.get("schema", PLAN_SCHEMA)
     if schema != PLAN_SCHEMA:
@@ -647,14 +647,14 @@ def parse_plan(
         raise w.fail("base", 'a plan needs a [base] table (scenario = "file.toml" or inline)')
     cache: dict[str, Any] = {}
     try:
-        base = _base(w, _table(w, data, "base"), plan_dir)
+        base = _base(w, get_table(w, data, "base"), plan_dir)
         _line_of(base, cache)
     except FormatError:
         raise
     except RecordScanError as exc:
         raise w.fail("base", str(exc)) from None
-    playback = _playback(w, _table(w, data, "playback"))
-    reclose = _reclose(w, _table(w, data, "reclose"))
+    playback = _playback(w, get_table(w, data, "playback"))
+    reclose = _reclose(w, get_table(w, data, "reclose"))
     specs = _expand(w, data)
     cases: list[PlanCase] = []
     for k, (origin, label, fixed, draws) in enumerate(specs, start=1):

@@ -18,7 +18,18 @@ import numpy as np
 from recordscan.errors import FormatError
 from recordscan.synth.scenario import ELONGATION_LAWS, VT_KINDS
 
-__all__ = ["VARIABLES", "Variable"]
+__all__ = [
+    "VARIABLES",
+    "Draw",
+    "Variable",
+    "Where",
+    "check_value",
+    "get_table",
+    "get_variable",
+    "num_key",
+    "parse_draw",
+    "reject_unknown",
+]
 
 
 # ----------------------------------------------------------------------------- variables
@@ -78,15 +89,18 @@ VARIABLES: dict[str, Variable] = {
 
 
 # ----------------------------------------------------------------------------- checking
-class _Where:
+class Where:
+    """The plan file's name, for error messages that name the file and the key."""
+
     def __init__(self, path: str) -> None:
         self.path = path
 
     def fail(self, key: str, msg: str) -> FormatError:
+        """A :class:`FormatError` ``"<file>: <key>: <msg>"`` (to raise)."""
         return FormatError(f"{self.path}: {key}: {msg}")
 
 
-def _check_value(w: _Where, key: str, var: Variable, v: Any) -> Any:
+def check_value(w: Where, key: str, var: Variable, v: Any) -> Any:
     """Validate one value of a variable; return it normalised."""
     if var.kind == "bool":
         if not isinstance(v, bool):
@@ -118,14 +132,15 @@ def _check_value(w: _Where, key: str, var: Variable, v: Any) -> Any:
     return x
 
 
-def _variable(w: _Where, key: str, name: str) -> Variable:
+def get_variable(w: Where, key: str, name: str) -> Variable:
+    """The definition of plan variable ``name`` (error at ``key`` when unknown)."""
     if name not in VARIABLES:
         raise w.fail(key, "unknown plan variable (see docs/relaytest.md for the list)")
     return VARIABLES[name]
 
 
 @dataclass(frozen=True)
-class _Draw:
+class Draw:
     """How a ``[random]`` variable is drawn."""
 
     name: str
@@ -133,6 +148,7 @@ class _Draw:
     args: tuple[Any, ...]
 
     def draw(self, rng: np.random.Generator) -> Any:
+        """One value (numbers rounded to 4 significant digits, so notes stay readable)."""
         if self.how == "fixed":
             return self.args[0]
         if self.how == "range":
@@ -149,11 +165,12 @@ def _round(x: float) -> float:
     return float(f"{x:.4g}")
 
 
-def _parse_draw(w: _Where, name: str, spec: Any) -> _Draw:
+def parse_draw(w: Where, name: str, spec: Any) -> Draw:
+    """Parse ``random.<name>``: a plain value, or one of range, log_range, choice, probability."""
     key = f"random.{name}"
-    var = _variable(w, key, name)
+    var = get_variable(w, key, name)
     if not isinstance(spec, Mapping):
-        return _Draw(name, "fixed", (_check_value(w, key, var, spec),))
+        return Draw(name, "fixed", (check_value(w, key, var, spec),))
     if len(spec) != 1:
         raise w.fail(key, "give exactly one of range, log_range, choice, probability")
     (how, arg), = spec.items()  # fmt: skip
@@ -163,36 +180,37 @@ def _parse_draw(w: _Where, name: str, spec: Any) -> _Draw:
             raise w.fail(sub, f"{name} is not a number; use choice or probability")
         if not isinstance(arg, list) or len(arg) != 2:
             raise w.fail(sub, "expected [low, high]")
-        lo, hi = (_check_value(w, sub, var, a) for a in arg)
+        lo, hi = (check_value(w, sub, var, a) for a in arg)
         if isinstance(lo, str) or isinstance(hi, str):
             raise w.fail(sub, "a range needs numbers")
         if lo > hi:
             raise w.fail(sub, f"low {lo:g} is above high {hi:g}")
         if how == "log_range" and lo <= 0:
             raise w.fail(sub, "a log_range needs positive bounds")
-        return _Draw(name, how, (lo, hi))
+        return Draw(name, how, (lo, hi))
     if how == "choice":
         if not isinstance(arg, list) or not arg:
             raise w.fail(sub, "expected a non-empty list of values")
-        return _Draw(name, how, tuple(_check_value(w, sub, var, a) for a in arg))
+        return Draw(name, how, tuple(check_value(w, sub, var, a) for a in arg))
     if how == "probability":
         if var.kind != "bool":
             raise w.fail(sub, f"{name} is not true/false; use range or choice")
         if isinstance(arg, bool) or not isinstance(arg, (int, float)) or not 0 <= arg <= 1:
             raise w.fail(sub, f"expected a number from 0 to 1, got {arg!r}")
-        return _Draw(name, how, (float(arg),))
+        return Draw(name, how, (float(arg),))
     raise w.fail(sub, "unknown draw; use range, log_range, choice or probability")
 
 
-def _table(w: _Where, data: Mapping[str, Any], key: str) -> dict[str, Any]:
+def get_table(w: Where, data: Mapping[str, Any], key: str) -> dict[str, Any]:
+    """``data[key]`` as a dict (empty when absent; error when not a table)."""
     v = data.get(key, {})
     if not isinstance(v, Mapping):
         raise w.fail(key, "must be a table")
     return dict(v)
 
 
-def _num_key(
-    w: _Where,
+def num_key(
+    w: Where,
     t: Mapping[str, Any],
     prefix: str,
     key: str,
@@ -201,6 +219,7 @@ def _num_key(
     lo: float,
     hi: float,
 ) -> float | None:
+    """A number ``t[key]`` within ``[lo, hi]``, or ``default`` when absent."""
     if key not in t:
         return default
     v = t[key]
@@ -211,7 +230,8 @@ def _num_key(
     return float(v)
 
 
-def _unknown(w: _Where, t: Mapping[str, Any], prefix: str, known: Sequence[str]) -> None:
+def reject_unknown(w: Where, t: Mapping[str, Any], prefix: str, known: Sequence[str]) -> None:
+    """Raise on the first key of ``t`` not in ``known`` (typos do not pass silently)."""
     extra = sorted(set(t) - set(known))
     if extra:
         name = f"{prefix}.{extra[0]}" if prefix else extra[0]
