@@ -99,6 +99,14 @@ class IndirectFitOptions:
         Search range of τ0 in the extinction profile.
     max_nfev : int
         Optimiser evaluation budget of the voltage fit.
+    fit_alpha : bool
+        Profile α against the measured final extinction (when one was observed).
+    alpha_bounds : tuple of float
+        Range of the α profile.
+    n_alpha, n_alpha_refine : int
+        Grid points of the α profile and golden-section refinements after it.
+    extinction_sigma_cycles : float
+        Weight of the extinction instant: its assumed standard error in cycles.
     free_phasor : bool
         Fit a free power-frequency phasor alongside the arc (absorbs an induced voltage the
         series-drop correction missed, but also the level of the arc voltage: ``u0`` then
@@ -112,6 +120,11 @@ class IndirectFitOptions:
     tau0_bounds_s: tuple[float, float] = (0.05e-3, 10e-3)
     max_nfev: int = 200
     free_phasor: bool = False
+    fit_alpha: bool = True
+    alpha_bounds: tuple[float, float] = (-1.2, 0.0)
+    n_alpha: int = 7
+    n_alpha_refine: int = 5
+    extinction_sigma_cycles: float = 0.25
 
 
 @dataclass(frozen=True)
@@ -326,7 +339,7 @@ def prepare_indirect(
         try:
             pr = an.pairing if an.pairing is not None else pair(record, remote)
             rw = remote.provenance.path or "remote record"
-            vr, vr_f, vr_mean, _vr_far, ok_r = _end_quantities(
+            vr, vr_f, vr_mean, _vr_far, _ok_r = _end_quantities(
                 remote, ld, circ, end_idx=1 - local_idx, distance_m=length - x,
                 inception_s=inc - pr.offset_s, where=rw,
             )  # fmt: skip
@@ -491,45 +504,71 @@ class _Model:
 
 
 class _VoltageProblem:
-    def __init__(self, model: _Model, law: str, tau0: float, alpha: float) -> None:
-        self.m, self.law, self.tau0, self.alpha = model, law, tau0, alpha
-        self.names = ["u0_v_per_m"] + ([] if law == "constant" else ["v_m_per_s"])
+    """Power-frequency voltage of the burning arc: ``u0``, the elongation rate and ``τ0``."""
+
+    def __init__(self, model: _Model, law: str, alpha: float, tau0_s: float | None) -> None:
+        self.m, self.law, self.alpha, self.tau0_fixed = model, law, alpha, tau0_s
+        self.names = ["u0_v_per_m"]
+        if law != "constant":
+            self.names.append("v_m_per_s" if law == "linear" else "rate_per_s")
+        if tau0_s is None:
+            self.names.append("tau0_s")
 
     def from_x(self, x: np.ndarray) -> dict[str, float]:
-        out = {"u0_v_per_m": math.exp(float(x[0]))}
-        if self.law != "constant":
-            out["v_m_per_s"] = float(x[1])
+        out = {} if self.tau0_fixed is None else {"tau0_s": self.tau0_fixed}
+        for n, val in zip(self.names, x, strict=True):
+            out[n] = math.exp(float(val)) if n in ("u0_v_per_m", "tau0_s") else float(val)
         return out
 
-    def simulate(self, p: dict[str, float], *, forced: bool = True) -> Any:
-        ap = self.m.params(p["u0_v_per_m"], self.tau0, self.alpha)
-        return self.m.run(ap, _law(self.law, p.get("v_m_per_s", 0.0)), forced=forced)
+    def to_x(self, p: dict[str, float]) -> np.ndarray:
+        return np.array(
+            [math.log(p[n]) if n in ("u0_v_per_m", "tau0_s") else p[n] for n in self.names]
+        )
 
-    def v_record(self, resp: Any) -> np.ndarray:
-        return resp.v_v[:: self.m.sub]
+    def bounds(self) -> tuple[np.ndarray, np.ndarray]:
+        lo_t, hi_t = self.m.opt.tau0_bounds_s
+        b = {
+            "u0_v_per_m": (math.log(100.0), math.log(20_000.0)),
+            "v_m_per_s": (0.0, 100.0),
+            "rate_per_s": (0.0, 60.0),
+            "tau0_s": (math.log(lo_t), math.log(hi_t)),
+        }
+        return np.array([b[n][0] for n in self.names]), np.array([b[n][1] for n in self.names])
+
+    def arc(self, p: dict[str, float]) -> tuple[ArcParameters, Any]:
+        ap = self.m.params(p["u0_v_per_m"], p["tau0_s"], self.alpha)
+        rate = p.get("v_m_per_s", p.get("rate_per_s", 0.0))
+        return ap, _law(self.law, rate)
+
+    def simulate(self, p: dict[str, float], *, forced: bool = True) -> Any:
+        ap, lw = self.arc(p)
+        return self.m.run(ap, lw, forced=forced)
 
     def residual(self, x: np.ndarray) -> np.ndarray:
         try:
             resp = self.simulate(self.from_x(x))
         except RecordScanError:
             return np.full(int(self.m.burn.sum()), 1e3)
-        vb = sosfiltfilt(self.m.sos, self.v_record(resp))
+        vb = sosfiltfilt(self.m.sos, resp.v_v[:: self.m.sub])
         r, _ = self.m.nuisance(vb)
         r = r / self.m.scale
         return np.where(np.isfinite(r), r, 1e3)
 
 
 def _fit_voltage(
-    model: _Model, law: str, tau0: float, alpha: float, start: dict[str, float]
+    model: _Model,
+    law: str,
+    alpha: float,
+    starts: list[dict[str, float]],
+    tau0_s: float | None = None,
 ) -> tuple[_VoltageProblem, Any]:
-    prob = _VoltageProblem(model, law, tau0, alpha)
-    lo = [math.log(100.0)] + ([] if law == "constant" else [0.0])
-    hi = [math.log(20_000.0)] + ([] if law == "constant" else [100.0 if law == "linear" else 60.0])
+    """Least-squares fit of the burning-period voltage from several starts; the best."""
+    prob = _VoltageProblem(model, law, alpha, tau0_s)
+    lo, hi = prob.bounds()
     best = None
-    rates = [start.get("v_m_per_s", 3.0)] if law == "constant" else [2.0, 8.0, 20.0]
-    for rate in rates:
-        x0 = [math.log(start["u0_v_per_m"])] + ([] if law == "constant" else [rate])
-        x0 = np.clip(np.array(x0), np.array(lo) + 1e-9, np.array(hi) - 1e-9)
+    for st in starts:
+        full = {"v_m_per_s": 3.0, "rate_per_s": 10.0, **st}
+        x0 = np.clip(prob.to_x(full), lo + 1e-9, hi - 1e-9)
         sol = least_squares(
             prob.residual,
             x0,
@@ -540,44 +579,79 @@ def _fit_voltage(
         )
         if best is None or sol.cost < best.cost * (1 - 1e-9):
             best = sol
+    assert best is not None
     return prob, best
 
 
-def _extinction_profile(
-    model: _Model, prob: _VoltageProblem, p: dict[str, float], t_ext: float
-) -> tuple[float, float, float | None, str]:
-    """τ0 that makes the model arc go out at ``t_ext``; its half-cycle band; the message."""
-    lo_b, hi_b = model.opt.tau0_bounds_s
-    grid = np.exp(np.linspace(math.log(lo_b), math.log(hi_b), 17))
-    law = _law(prob.law, p.get("v_m_per_s", 0.0))
+@dataclass
+class _AlphaPoint:
+    alpha: float
+    prob: _VoltageProblem
+    sol: Any
+    extinction_s: float | None
+    cost: float
+    matched: bool
+    tau0_band_s: float
 
-    def ext_at(tau0: float) -> float:
-        ap = model.params(p["u0_v_per_m"], tau0, prob.alpha)
-        e = model.run(ap, law, forced=False).extinction_s
+
+def _tau0_for_extinction(
+    model: _Model, law: str, alpha: float, p: dict[str, float], t_ext: float
+) -> tuple[float, bool, float]:
+    """τ0 at which the model arc goes out at ``t_ext`` (given u0, rate, α).
+
+    The arc lasts longer with a longer time constant (monotone in practice): a log grid,
+    then bisection. Returns τ0, whether the extinction was matched, and the half-width of
+    the τ0 band whose extinction stays within half a cycle of ``t_ext``.
+    """
+    lo_b, hi_b = model.opt.tau0_bounds_s
+    rate = p.get("v_m_per_s", p.get("rate_per_s", 0.0))
+    lw = _law(law, rate)
+
+    def ext_at(ln_tau: float) -> float:
+        ap = model.params(p["u0_v_per_m"], math.exp(ln_tau), alpha)
+        e = model.run(ap, lw, forced=False).extinction_s
         return math.inf if e is None else e
 
-    ext = np.array([ext_at(float(x)) for x in grid])
-    d = ext - t_ext  # the arc lasts longer with a longer time constant (monotone in practice)
+    grid = np.linspace(math.log(lo_b), math.log(hi_b), 13)
+    d = np.array([ext_at(float(x)) for x in grid]) - t_ext
     if np.all(d > 0):
-        return float(grid[0]), math.nan, None, "the model arc outlasts the measured one at all τ0"
+        return float(math.exp(grid[0])), False, math.nan
     if np.all(d < 0):
-        return float(grid[-1]), math.nan, None, "the model arc goes out too early at all τ0"
+        return float(math.exp(grid[-1])), False, math.nan
     j = int(np.flatnonzero(d >= 0)[0])
-    a, b = math.log(grid[max(j - 1, 0)]), math.log(grid[j])
-    for _ in range(12):
+    a, b = float(grid[max(j - 1, 0)]), float(grid[j])
+    for _ in range(10):
         mid = 0.5 * (a + b)
-        if ext_at(math.exp(mid)) - t_ext >= 0:
+        if ext_at(mid) - t_ext >= 0:
             b = mid
         else:
             a = mid
-    tau0 = math.exp(0.5 * (a + b))
-    # τ0 band that keeps the predicted extinction within ± half a cycle of the measured one
+    # extinctions fall on current zeros, so the relation has steps: keep the closer side
+    ln_tau = a if abs(ext_at(a) - t_ext) < abs(ext_at(b) - t_ext) else b
     half = 0.5 * model.cycle
-    fine = np.exp(np.linspace(math.log(tau0) - 0.7, math.log(tau0) + 0.7, 15))
-    ok = [float(x) for x in fine if abs(ext_at(float(x)) - t_ext) <= half]
-    band = (max(ok) - min(ok)) / 2.0 if len(ok) >= 2 else math.nan
-    e_fit = ext_at(tau0)
-    return tau0, band, (None if not math.isfinite(e_fit) else e_fit), "extinction matched"
+    probe = ln_tau + np.linspace(-0.3, 0.3, 9)
+    ok = [float(x) for x in probe if abs(ext_at(float(x)) - t_ext) <= half]
+    band = (math.exp(max(ok)) - math.exp(min(ok))) / 2.0 if len(ok) >= 2 else math.nan
+    return math.exp(ln_tau), abs(ext_at(ln_tau) - t_ext) <= half, band
+
+
+def _alpha_point(
+    model: _Model, law: str, alpha: float, start: dict[str, float], t_ext: float
+) -> _AlphaPoint:
+    """At one α: τ0 from the extinction, then u0 and the rate from the voltage (twice)."""
+    p = dict(start)
+    tau0, matched, band = p["tau0_s"], False, math.nan
+    prob, sol, ext = None, None, None
+    for _ in range(3):
+        tau0, matched, band = _tau0_for_extinction(model, law, alpha, p, t_ext)
+        prob, sol = _fit_voltage(model, law, alpha, [p], tau0_s=tau0)
+        p = prob.from_x(sol.x)
+        ext = prob.simulate(p, forced=False).extinction_s
+        matched = ext is not None and abs(ext - t_ext) <= 0.5 * model.cycle
+        if matched:
+            break
+    assert prob is not None
+    return _AlphaPoint(alpha, prob, sol, ext, 2.0 * float(sol.cost), matched, band)
 
 
 def fit_indirect(
@@ -629,39 +703,73 @@ def fit_indirect(
     model = _Model(inp, opt, pr)
     if model.burn.sum() < 20:
         raise FitError(f"{inp.source}: too few samples in the burning period to fit")
-    flags: list[str] = []
-    tau0, alpha = pr.tau0_s, pr.alpha
-    start = {"u0_v_per_m": pr.u0_v_per_m}
-    prob, sol = _fit_voltage(model, law, tau0, alpha, start)
-    p = prob.from_x(sol.x)
-    tau_band = math.nan
-    tau_status = PRIOR
-    ext_msg = "final extinction not observed (censored): τ0 held at its prior"
-    if inp.extinction_s is not None:
-        for _ in range(2):
-            tau0, tau_band, _e, ext_msg = _extinction_profile(model, prob, p, inp.extinction_s)
-            prob, sol = _fit_voltage(model, law, tau0, alpha, p)
-            p = prob.from_x(sol.x)
-        tau0, tau_band, _e, ext_msg = _extinction_profile(model, prob, p, inp.extinction_s)
-        tau_status = WEAK
-    else:
-        flags.append(ext_msg)
-    return _finish(model, prob, sol, p, tau0, tau_band, tau_status, ext_msg, flags, law)
+    flags: list[str] = list(inp.notes)
+    base = {"u0_v_per_m": pr.u0_v_per_m, "tau0_s": pr.tau0_s}
+    starts = [dict(base, v_m_per_s=r, rate_per_s=2.0 * r) for r in (2.0, 8.0, 20.0)]
+    # burning period alone: u0, rate and τ0 from the voltage, α at its prior
+    prob0, sol0 = _fit_voltage(model, law, pr.alpha, starts)
+    p0 = prob0.from_x(sol0.x)
+    if inp.extinction_s is None or not opt.fit_alpha:
+        if inp.extinction_s is None:
+            flags.append("final extinction not observed (censored): α held at its prior")
+        ext0 = prob0.simulate(p0, forced=False).extinction_s
+        pt = _AlphaPoint(pr.alpha, prob0, sol0, ext0, 2.0 * float(sol0.cost), True, math.nan)
+        return _finish(model, pt, None, flags, law)
+    t_ext = inp.extinction_s
+    pts: dict[float, _AlphaPoint] = {}
+    lo_a, hi_a = opt.alpha_bounds
+
+    def score(pt: _AlphaPoint) -> float:
+        # the extinction is a constraint: unmatched points rank behind all matched ones
+        return pt.cost + (0.0 if pt.matched else 1e6)
+
+    for a in np.linspace(lo_a, hi_a, opt.n_alpha):
+        pts[float(a)] = _alpha_point(model, law, float(a), p0, t_ext)
+    grid = sorted(pts)
+    a_best = min(pts, key=lambda a: score(pts[a]))
+    j = grid.index(a_best)
+    lo_b, hi_b = grid[max(j - 1, 0)], grid[min(j + 1, len(grid) - 1)]
+    gr = (math.sqrt(5.0) - 1.0) / 2.0
+    c1, c2 = hi_b - gr * (hi_b - lo_b), lo_b + gr * (hi_b - lo_b)
+    seed = pts[a_best].prob.from_x(pts[a_best].sol.x)
+    for _ in range(opt.n_alpha_refine):
+        for c in (c1, c2):
+            if c not in pts:
+                pts[c] = _alpha_point(model, law, c, seed, t_ext)
+        if score(pts[c1]) <= score(pts[c2]):
+            hi_b, c2 = c2, c1
+            c1 = hi_b - gr * (hi_b - lo_b)
+        else:
+            lo_b, c1 = c1, c2
+            c2 = lo_b + gr * (hi_b - lo_b)
+    a_best = min(pts, key=lambda a: score(pts[a]))
+    chosen = pts[a_best]
+    if not chosen.matched:
+        flags.append("no α in range lets the model arc go out at the measured extinction")
+    # α interval from the voltage profile: chi-square rise of 1 per independent band sample
+    m = chosen.sol.fun.size
+    n_eff = max(m * 2.0 * opt.band_factor / (model.fs * model.cycle), 2.0)
+    sigma2 = max(chosen.cost / max(m - 2, 1), 1e-12) * (m / n_eff)
+    inside = [a for a, pt in pts.items() if pt.matched and pt.cost <= chosen.cost + sigma2]
+    alpha_sd = (max(inside) - min(inside)) / 2.0 if len(inside) >= 2 else None
+    if alpha_sd is None:
+        near = sorted((a for a in pts if pts[a].matched), key=lambda a: abs(a - a_best))[1:3]
+        curv = [(pts[a].cost - chosen.cost) / sigma2 / max((a - a_best) ** 2, 1e-12) for a in near]
+        c_max = max(curv, default=0.0)
+        alpha_sd = 1.0 / math.sqrt(c_max) if c_max > 0 else math.inf
+    return _finish(model, chosen, alpha_sd, flags, law)
 
 
 def _finish(
     model: _Model,
-    prob: _VoltageProblem,
-    sol: Any,
-    p: dict[str, float],
-    tau0: float,
-    tau_band: float,
-    tau_status: str,
-    ext_msg: str,
+    pt: _AlphaPoint,
+    alpha_sd: float | None,
     flags: list[str],
     law: str,
 ) -> ArcFitResult:
     inp, pr = model.inp, model.prior
+    prob, sol = pt.prob, pt.sol
+    p = prob.from_x(sol.x)
     fun, jac, x = sol.fun, sol.jac, sol.x
     m, k = fun.size, x.size
     s2 = float(np.sum(fun**2)) / max(m - k, 1)
@@ -673,59 +781,74 @@ def _finish(
     except np.linalg.LinAlgError:
         sd = np.full(k, np.inf)
         corr = np.eye(k)
-        flags.append("Jacobian singular: the voltage cannot separate u0 and the elongation")
-    # band-limited residuals are strongly correlated: inflate by the samples per compared band
-    n_eff = max(m * 2.0 * model.opt.band_factor * model.inp.circuit.frequency_hz / model.fs, 2.0)
+        flags.append("Jacobian singular: the voltage cannot separate the parameters")
+    # band-limited residuals are strongly correlated: inflate by the samples per band
+    n_eff = max(m * 2.0 * model.opt.band_factor / (model.fs * model.cycle), 2.0)
     sd = sd * math.sqrt(m / n_eff)
     est: dict[str, ParameterEstimate] = {}
     for j, name in enumerate(prob.names):
         val = p[name]
-        s = float(sd[j] * val) if name == "u0_v_per_m" else float(sd[j])
+        s = float(sd[j] * val) if name in ("u0_v_per_m", "tau0_s") else float(sd[j])
         rel = s / abs(val) if val != 0 else math.inf
-        status = WEAK if (rel > 0.25 or not math.isfinite(rel)) else FITTED
-        if name == "v_m_per_s" and val < 0.5 and s < 0.5:
-            status = FITTED
-        est[name] = ParameterEstimate(name, val, s, status, plausible(name, val))
+        others = np.abs(np.delete(corr[j], j)) if k > 1 else np.array([0.0])
+        weak = rel > 0.25 or not math.isfinite(rel) or float(others.max()) > 0.98
+        if name in ("v_m_per_s", "rate_per_s") and val < 0.5 and s < 0.5:
+            weak = False
+        est[name] = ParameterEstimate(name, val, s, WEAK if weak else FITTED, plausible(name, val))
     est["r0_ohm_per_m"] = ParameterEstimate("r0_ohm_per_m", pr.r0_ohm_per_m, None, PRIOR, True)
-    tau_sd = None if tau_status == PRIOR or not math.isfinite(tau_band) else tau_band
-    est["tau0_s"] = ParameterEstimate("tau0_s", tau0, tau_sd, tau_status, plausible("tau0_s", tau0))
-    est["alpha"] = ParameterEstimate("alpha", pr.alpha, None, PRIOR, True)
+    names = list(prob.names)
+    if "tau0_s" not in est:
+        tau0 = p["tau0_s"]
+        band = pt.tau0_band_s
+        t_sd = float(band) if math.isfinite(band) else None
+        t_weak = t_sd is None or t_sd > 0.25 * tau0 or not pt.matched
+        est["tau0_s"] = ParameterEstimate(
+            "tau0_s", tau0, t_sd, WEAK if t_weak else FITTED, plausible("tau0_s", tau0)
+        )
+        names.append("tau0_s")
+    if alpha_sd is None:
+        est["alpha"] = ParameterEstimate("alpha", pr.alpha, None, PRIOR, True)
+    else:
+        a_status = FITTED if alpha_sd <= 0.15 else WEAK
+        alpha_sd = alpha_sd if math.isfinite(alpha_sd) else None
+        est["alpha"] = ParameterEstimate(
+            "alpha", pt.alpha, alpha_sd, a_status, plausible("alpha", pt.alpha)
+        )
+        names.append("alpha")
+        flags.append(
+            "τ0 set by the measured final extinction at each α, α by the burning-period "
+            f"voltage: α {a_status}"
+        )
     est["l0_m"] = ParameterEstimate("l0_m", pr.l0_m, None, PRIOR, True)
     flags.append(
-        "l0 held at its prior: terminal voltages see only u0·l0 and v/l0; α, r0 and the "
-        "extinction thresholds held at their priors"
+        "l0 held at its prior (terminal voltages see u0·l0 and the elongation relative to "
+        "l0); r0 and the extinction thresholds held at their priors"
     )
-    if tau_status == WEAK:
-        flags.append(
-            "τ0 set by the measured final extinction (one instant determines one combination "
-            "of τ0 and α): weakly determined"
-        )
     if not inp.two_ended:
-        flags.append("single-ended: the open-phase voltage includes the induced voltage up to "
-                     "the fault (fitted as a power-frequency term)")  # fmt: skip
+        flags.append("single-ended record: series drop to the fault from the scan's location")
     for n, e in est.items():
         if not e.plausible:
             flags.append(f"{n} = {e.value:.4g} lies outside the broad published range")
-    law_obj = _law(law, p.get("v_m_per_s", 0.0))
-    ap = model.params(p["u0_v_per_m"], tau0, pr.alpha)
+    ap, law_obj = prob.arc(p)
     free = model.run(ap, law_obj, forced=inp.extinction_s is None)
     v_fit = free.v_v[:: model.sub]
-    vb = sosfiltfilt(model.sos, v_fit)
-    r_band, coef = model.nuisance(vb)
+    burning = model.run(ap, law_obj, forced=True).v_v[:: model.sub]
+    r_band, coef = model.nuisance(sosfiltfilt(model.sos, burning))
     induced = model.basis @ coef
     resid_rms = float(np.sqrt(np.mean(r_band**2)))
     rel = resid_rms / model.scale
     ext_model = free.extinction_s
     success = bool(sol.success) and rel < 0.5
-    msg = f"{sol.message}; {ext_msg}"
-    if inp.extinction_s is not None and ext_model is None:
-        success = False
-        msg = f"fit not usable: the fitted model arc does not go out ({ext_msg})"
-    elif inp.extinction_s is not None and abs(ext_model - inp.extinction_s) > model.cycle:
-        flags.append(
-            f"the fitted model goes out {1e3 * (ext_model - inp.extinction_s):+.0f} ms from the "
-            "measured final extinction"
-        )
+    msg = str(sol.message)
+    if inp.extinction_s is not None:
+        if ext_model is None:
+            success = False
+            msg = "fit not usable: the fitted model arc does not go out"
+        else:
+            d_ms = 1e3 * (ext_model - inp.extinction_s)
+            msg += f"; model extinction {d_ms:+.1f} ms from the measured one"
+            if abs(ext_model - inp.extinction_s) > model.cycle:
+                flags.append(f"the fitted model goes out {d_ms:+.0f} ms from the measured one")
     if not success:
         if "not usable" not in msg:
             msg = f"fit not usable: {msg}; relative residual {rel:.2f}"
@@ -737,13 +860,15 @@ def _finish(
     with np.errstate(divide="ignore", invalid="ignore"):
         g_meas = np.where(np.abs(u_meas) > 0.05 * model.scale, i_est / u_meas, np.nan)
         g_meas = np.where(g_meas > 0, g_meas, np.nan)
-    names = tuple(prob.names) + (("tau0_s",) if tau_status != PRIOR else ())
     nn = len(names)
     corr_full = np.eye(nn)
     corr_full[: corr.shape[0], : corr.shape[1]] = corr
-    elong = {"v_m_per_s": p["v_m_per_s"]} if law == "linear" else {}
-    if law == "johns":
-        elong = {"t_hold_s": 0.1, "rate_per_s": p["v_m_per_s"]}
+    if law == "linear":
+        elong = {"v_m_per_s": p["v_m_per_s"]}
+    elif law == "johns":
+        elong = {"t_hold_s": 0.1, "rate_per_s": p["rate_per_s"]}
+    else:
+        elong = {}
     return ArcFitResult(
         method="indirect",
         period="secondary",
@@ -751,7 +876,7 @@ def _finish(
         elongation_law=law,
         elongation_params=elong,
         correlation=corr_full,
-        fitted_names=names,
+        fitted_names=tuple(names),
         residual_rms=resid_rms,
         residual_rel=rel,
         success=success,
