@@ -61,14 +61,23 @@ def test_testset_then_verify(tmp_path: Path, capsys: pytest.CaptureFixture[str])
     assert rep["counts"]["premature_permit"] == 0 and rep["passed"]
 
 
-def test_testset_json(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+def test_testset_json_cff_float32(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    """--json summary; a .cff FLOAT32 set keeps the secondary scaling (IEEE C37.111-2013)."""
+    from recordscan.io import read
+
     one = TINY.split("[[case]]")[0] + "[[case]]\npermanent = true\n"
+    one = one.replace('format = "BINARY"', 'format = "FLOAT32"\ncff = true')
     plan = write_plan(tmp_path, one)
     code, out, _ = run(["testset", str(plan), "--out", str(tmp_path / "o"), "--json"], capsys)
     assert code == 0
     s = json.loads(out)
     assert s["cases"] == 1 and s["expected_blocks"] == 1 and s["failed"] == []
     assert s["caution"].startswith("Caution")
+    rec = read(tmp_path / "o" / "case-001.cff")
+    assert rec.provenance.data_format == "FLOAT32"
+    va = rec.analog_by_role("v_a")
+    assert va is not None and va.scaling.ps == "S"
+    assert va.scaling.primary / va.scaling.secondary == pytest.approx(345e3 / 115.0, rel=1e-12)
 
 
 @pytest.mark.parametrize(
