@@ -97,6 +97,40 @@ def find_records(paths: Iterable[str | os.PathLike[str]]) -> tuple[list[Path], l
     return unique, problems
 
 
+PAIR_SUFFIXES = ("_local", "_remote")
+
+
+def pair_records(records: Sequence[Path]) -> list[tuple[Path, Path | None]]:
+    """Group the two terminals' records of one event: ``X_local`` with ``X_remote``.
+
+    Records named ``<stem>_local.<ext>`` and ``<stem>_remote.<ext>`` in the same folder are
+    analysed together (one event, one secondary-arc timeline); all others stand alone.
+
+    Returns
+    -------
+    list of (Path, Path or None)
+        ``(local, remote)`` pairs and ``(record, None)`` singles, in input order.
+    """
+    by_key: dict[tuple[Path, str], dict[str, Path]] = {}
+    for r in records:
+        stem = r.stem.lower()
+        for suf in PAIR_SUFFIXES:
+            if stem.endswith(suf):
+                by_key.setdefault((r.parent, stem[: -len(suf)]), {})[suf] = r
+    paired: dict[Path, Path | None] = {}
+    skip: set[Path] = set()
+    for ends in by_key.values():
+        if len(ends) == 2:
+            paired[ends["_local"]] = ends["_remote"]
+            skip.add(ends["_remote"])
+    out: list[tuple[Path, Path | None]] = []
+    for r in records:
+        if r in skip:
+            continue
+        out.append((r, paired.get(r)))
+    return out
+
+
 def _load_toml(path: Path) -> dict[str, Any]:
     try:
         import tomllib

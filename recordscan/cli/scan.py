@@ -112,6 +112,7 @@ def scan(
         ScanOutputs,
         find_records,
         match_line,
+        pair_records,
         run_jobs,
         write_index,
     )
@@ -133,7 +134,14 @@ def scan(
         for p in problems:
             click.echo(f"recordscan: skipped {p}", err=True)
         jobs = [
-            ScanJob(str(r), line_path or match_line(r), None, profile, encoding) for r in records
+            ScanJob(
+                str(r),
+                line_path or match_line(r),
+                None if rem is None else str(rem),
+                profile,
+                encoding,
+            )
+            for r, rem in pair_records(records)
         ]
     if not jobs:
         raise RecordScanError("no COMTRADE records found in " + ", ".join(paths))

@@ -1,0 +1,5 @@
+"""``python -m recordscan.cli`` runs the command line."""
+
+from recordscan.cli.main import main
+
+main()
