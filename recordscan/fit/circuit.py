@@ -181,7 +181,7 @@ def series_drop(
     gamma_end_per_h: np.ndarray | None = None,
     lam_abc_vs: np.ndarray | None = None,
     cutoff_hz: float | None = None,
-) -> tuple[np.ndarray, np.ndarray]:
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Series voltage drop along the line from a terminal, as a polynomial in distance.
 
     With the phase currents entering the line at the terminal ``i(0)`` (breaker current
@@ -207,8 +207,11 @@ def series_drop(
 
     Returns
     -------
-    (A, B) : tuple of numpy.ndarray
-        (3, n) each: ``A`` [V/m] and ``B`` [V/m²].
+    (A, B, E) : tuple of numpy.ndarray
+        (3, n) each: ``A`` [V/m], ``B`` [V/m²] and ``E = z∘(L·c·dv/dt)`` [V/m], the drop per
+        metre of the whole-line shunt current (with a negative sign the current of a fault
+        to ground on an isolated conductor, which flows beyond the fault in the
+        opposite direction).
     """
     t = np.asarray(t_s, dtype=float)
     fs = 1.0 / float(np.median(np.diff(t)))
@@ -226,7 +229,13 @@ def series_drop(
     def z_of(x: np.ndarray) -> np.ndarray:
         return r @ x + ell @ np.gradient(x, t, axis=1)
 
-    return z_of(i0), z_of(shunt)
+    length = float(line.length_m)
+    return (
+        z_of(i0),
+        z_of(shunt),
+        np.diag(np.diag(r)) @ (length * shunt)
+        + np.diag(np.diag(ell)) @ np.gradient(length * shunt, t, axis=1),
+    )
 
 
 def _lowpass(x: np.ndarray, *, fs_hz: float, cutoff_hz: float) -> np.ndarray:

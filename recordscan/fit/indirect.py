@@ -239,11 +239,15 @@ def _end_quantities(
     lam = None
     if np.any(gam != 0.0):
         lam = reactor_flux(t, v, t_leak_s=circ.t_leak_s, t_ref_s=inception_s)
-    a_m, b_m = series_drop(t, v, i, ld, gamma_end_per_h=gam, lam_abc_vs=lam)
+    a_m, b_m, e_m = series_drop(t, v, i, ld, gamma_end_per_h=gam, lam_abc_vs=lam)
     d = distance_m
     v_f = v[k] - (d * a_m[k] - 0.5 * d * d * b_m[k])
     v_mean = v - (0.5 * length * a_m - length * length / 6.0 * b_m)
+    # the open conductor beyond the fault carries the arc current's far share the other way
+    # (its shunt current is minus the arc current without reactors): mean correction
+    v_mean[k] = v_mean[k] - (length - d) ** 2 / (2.0 * length) * e_m[k]
     v_far = v - (length * a_m - 0.5 * length * length * b_m)
+    v_far[k] = v_far[k] - (length - d) * e_m[k]
     return v, v_f, v_mean, v_far, True
 
 
@@ -442,6 +446,9 @@ class _Model:
         sos = butter(4, min(8.0 * f / (0.5 * fs), 0.9), output="sos")
         v_s = sosfiltfilt(sos, inp.v_mean_v[others], axis=1)
         b = c[k, others[0]] * v_s[0] + c[k, others[1]] * v_s[1]
+        # the model's node is the fault point; the conductor's charge follows its mean
+        # voltage along the line, which differs from it by the series drops
+        b = b + c[k, k] * sosfiltfilt(sos, inp.v_mean_v[k] - inp.v_fault_v)
         i0 = int(np.searchsorted(t, inp.t_episode_s))
         i1 = int(np.searchsorted(t, inp.t_stop_s, side="right"))
         i1 = min(i1, t.size)
