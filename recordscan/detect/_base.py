@@ -274,8 +274,8 @@ class Quantities:
         return float(self._cache[key])
 
     def hratio_cycles(self, rate_hz: float) -> int:
-        """Window of the harmonic ratio in cycles: 2 below 40 samples per cycle, else 1."""
-        return 2 if rate_hz / self.f_hz < 40 else 1
+        """Window of the harmonic ratio in cycles: 2 below 24 samples per cycle, else 1."""
+        return 2 if rate_hz / self.f_hz < 24 else 1
 
     def hratio_noise(self, role: str, idx: int) -> float:
         """Expected noise power in the harmonic bins of :meth:`hratio` at sample ``idx``.

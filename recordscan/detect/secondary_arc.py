@@ -229,6 +229,32 @@ def with_burning_after(trace: ArcTrace, restrike_idx: list[int], stop_idx: int) 
     return dataclasses.replace(trace, burning=burning)
 
 
+def _floor_reached(h: np.ndarray, floor: float, contrast: float) -> int | None:
+    """Where the falling harmonic ratio reaches its floor: a straight line through its fall
+    from 70 % to 20 % of the contrast, extended to the floor (index into ``h``)."""
+    if contrast <= 0:
+        return None
+    hi = np.flatnonzero(h <= floor + 0.7 * contrast)
+    if hi.size == 0:
+        return None
+    i70 = int(hi[0])
+    lo = np.flatnonzero(h[i70:] <= floor + 0.2 * contrast)
+    if lo.size == 0:
+        return None
+    i20 = i70 + int(lo[0])
+    if i20 - i70 < 3:
+        return i20
+    x = np.arange(i70, i20 + 1, dtype=np.float64)
+    y = h[i70 : i20 + 1]
+    ok = np.isfinite(y)
+    if ok.sum() < 3:
+        return i20
+    slope, icpt = np.polyfit(x[ok], y[ok], 1)
+    if slope >= 0:
+        return i20
+    return int(np.clip(round((floor - icpt) / slope), i20, h.shape[0] - 1))
+
+
 def _refine_full_rate(
     full: Record,
     role: str,
@@ -449,9 +475,13 @@ def detect_extinction(
         head = head[np.isfinite(head)]
         h_ref = float(np.max(head)) if head.size else float("nan")
         if np.isfinite(h_floor) and np.isfinite(h_ref):
-            level_h = h_floor + 0.15 * max(h_ref - h_floor, 0.0)
-            below = np.flatnonzero(tail[: 3 * win] <= level_h)
+            contrast = max(h_ref - h_floor, 0.0)
+            early = tail[: 3 * win]
+            below = np.flatnonzero(early <= h_floor + 0.15 * contrast)
             k_f = kc + (int(below[0]) if below.size else 0)
+            k_floor = _floor_reached(early, h_floor, contrast)
+            if k_floor is not None:
+                k_f = kc + k_floor
     k_est = max(k_f - win + 1, lo)
     ref = _refine(v, t, kc=k_f, n=n, f_hz=q.f_hz, lo=lo, hi=b, arc_amp=arc_amp)
     if ref is not None and not k_est - 0.3 * n <= ref[0] <= k_f:
