@@ -18,6 +18,12 @@ from recordscan.cli.common import CAUTION, atomic_write_bytes, to_json_text
     help="Line description (indirect fit of terminal records).",
 )
 @click.option(
+    "--remote",
+    "remote_path",
+    type=click.Path(dir_okay=False),
+    help="The other terminal's record of the same event (indirect fit).",
+)
+@click.option(
     "--period",
     type=click.Choice(["both", "primary", "secondary"]),
     default="both",
@@ -44,6 +50,8 @@ from recordscan.cli.common import CAUTION, atomic_write_bytes, to_json_text
 @click.option("--plot", "plot_dir", type=click.Path(file_okay=False), help="Write figures here.")
 def fit(
     record_path: str,
+    line_path: str | None,
+    remote_path: str | None,
     period: str,
     law: str,
     l0_m: float | None,
@@ -53,16 +61,22 @@ def fit(
     plot_dir: str | None,
 ) -> None:
     """Back-calculate arc-model parameters from RECORD."""
-    from recordscan.fit import DirectFitOptions, fit_record
+    from recordscan.fit import DirectFitOptions, IndirectFitOptions, fit_record
     from recordscan.io import read
 
     record = read(record_path, profile=profile)
+    remote = read(remote_path, profile=profile) if remote_path else None
+    if line_path is None and remote is not None:
+        raise click.UsageError("--remote needs --line (the indirect fit uses the line model)")
     periods = ("primary", "secondary") if period == "both" else (period,)
     results = fit_record(
         record,
         periods=periods,
         l0_m=l0_m,
         options=DirectFitOptions(law=law, n_bootstrap=n_bootstrap),
+        line=line_path,
+        remote=remote,
+        indirect_options=IndirectFitOptions(law="linear" if law == "auto" else law),
     )
     if plot_dir:
         from recordscan.plot.event import figure_png

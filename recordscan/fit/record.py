@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import warnings
 from dataclasses import dataclass
+from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -11,8 +13,12 @@ from recordscan.core import roles
 from recordscan.core.record import Record
 from recordscan.errors import FitError, FitWarning
 from recordscan.fit.direct import DirectFitOptions, fit_direct
+from recordscan.fit.indirect import IndirectFitOptions, fit_indirect
 from recordscan.fit.result import ArcFitResult
 from recordscan.physics.arc import PRIMARY_ARC, ArcParameters
+
+if TYPE_CHECKING:  # pragma: no cover
+    from recordscan.physics.line import LineDescription
 
 
 @dataclass(frozen=True)
@@ -102,19 +108,30 @@ def fit_record(
     periods: tuple[str, ...] = ("primary", "secondary"),
     l0_m: float | None = None,
     options: DirectFitOptions | None = None,
+    line: LineDescription | str | Path | None = None,
+    remote: Record | None = None,
+    indirect_options: IndirectFitOptions | None = None,
 ) -> list[ArcFitResult]:
-    """Direct fits of the arc periods of a record that carries arc current and voltage.
+    """Fits of the arc periods of a record: direct with arc channels, else indirect.
 
     Parameters
     ----------
     record : Record
-        Roles ``arc_i`` and ``arc_v`` must be assigned.
+        With roles ``arc_i`` and ``arc_v`` a direct fit; without them, a terminal record
+        fitted indirectly (needs ``line``).
     periods : tuple of str
-        Which periods to fit.
+        Which periods to fit (the indirect fit covers the secondary arc only).
     l0_m : float, optional
         Initial arc length (insulator string); default 3 m, stated as held at prior.
     options : DirectFitOptions, optional
-        Fit settings.
+        Direct fit settings.
+    line : LineDescription or path, optional
+        Line description: routes a record without arc channels to
+        :func:`recordscan.fit.indirect.fit_indirect`.
+    remote : Record, optional
+        The other terminal's record (indirect fit).
+    indirect_options : IndirectFitOptions, optional
+        Indirect fit settings.
 
     Returns
     -------
@@ -123,6 +140,14 @@ def fit_record(
     """
     ch_i = record.analog_by_role(roles.ARC_CURRENT)
     ch_v = record.analog_by_role(roles.ARC_VOLTAGE)
+    if (ch_i is None or ch_v is None) and line is not None:
+        if "secondary" not in periods:
+            raise FitError(
+                f"{record.provenance.path or 'record'}: a terminal record gives only the "
+                "secondary arc (indirect fit); ask for the secondary period"
+            )
+        prior = ArcParameters() if l0_m is None else ArcParameters(l0_m=float(l0_m))
+        return [fit_indirect(record, line, remote=remote, prior=prior, options=indirect_options)]
     if ch_i is None or ch_v is None:
         raise FitError(
             f"{record.provenance.path or 'record'}: a direct fit needs arc current and arc "
