@@ -229,6 +229,27 @@ def with_burning_after(trace: ArcTrace, restrike_idx: list[int], stop_idx: int) 
     return dataclasses.replace(trace, burning=burning)
 
 
+def _with_weak_signature(tr: ArcTrace, *, weak_margin: float) -> ArcTrace:
+    """Add to the burning state the stretches of a weak but clear arc signature."""
+    h = tr.hratio
+    valid = np.flatnonzero(np.isfinite(h))
+    n_tail = int(2 * tr.n_cycle)
+    if valid.size < 3 * n_tail:
+        return tr
+    floor = finite_median(h[valid[-n_tail:]])
+    if not np.isfinite(floor):
+        return tr
+    with np.errstate(invalid="ignore"):
+        weak = h > max(3.0 * floor, floor + weak_margin)
+    ws, we = runs(weak)
+    for si, ei in zip(ws, we, strict=True):
+        if ei - si < 4 * tr.n_cycle:  # a transient after the extinction is shorter
+            weak[si:ei] = False
+    if not np.any(weak & ~tr.burning):
+        return tr
+    return dataclasses.replace(tr, burning=tr.burning | weak)
+
+
 def _floor_reached(h: np.ndarray, floor: float, contrast: float) -> int | None:
     """Where the falling harmonic ratio reaches its floor: a straight line through its fall
     from 70 % to 20 % of the contrast, extended to the floor (index into ``h``)."""
@@ -352,6 +373,7 @@ def detect_extinction(
     level_min: float = 0.03,
     trace: ArcTrace | None = None,
     refine_record: Record | None = None,
+    weak_margin: float = 0.015,
 ) -> ExtinctionResult:
     """Find the final extinction of the secondary arc on ``phase``.
 
@@ -373,6 +395,11 @@ def detect_extinction(
         A recovered phase below this fraction of the healthy-phase voltage is flagged.
     trace : ArcTrace, optional
         A trace already computed with the same settings.
+    weak_margin : float
+        A weak arc signature: ``H`` above ``max(3·floor, floor + weak_margin)`` for four
+        cycles,
+        the floor being the median ``H`` of the last two cycles observed (a clean recovery).
+        Catches arcs whose voltage is swamped by a sinusoid induced along the open phase.
     refine_record : Record, optional
         The same record at its full sample rate when ``record`` was block-averaged
         (:func:`recordscan.detect._base.decimate_record`): the instant is then refined on
@@ -407,6 +434,7 @@ def detect_extinction(
     observed = float(t[b - 1]) if b > 0 else float(until_s)
     params = {"h_on": h_on, "h_off": h_off, "level_min": level_min}
     chans = (q.channel_name(role),)
+    tr = _with_weak_signature(tr, weak_margin=weak_margin)
     s, e = runs(tr.burning)
     intervals = tuple(
         (float(t[a + si]) - n / 2 / q.segment_at(a).rate_hz, float(t[a + ei - 1]))
