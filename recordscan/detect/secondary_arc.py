@@ -37,7 +37,7 @@ from recordscan.core.record import Record
 from recordscan.core.roles import ARC_CURRENT, PHASES, V_LINE
 from recordscan.detect._base import Quantities, finite_median, where
 from recordscan.errors import DetectionError
-from recordscan.signal.charfunc import robust_scale
+from recordscan.signal.charfunc import robust_scale, step_score
 from recordscan.signal.onset import hysteresis_state, runs
 
 __all__ = [
@@ -248,6 +248,36 @@ def _with_weak_signature(tr: ArcTrace, *, weak_margin: float) -> ArcTrace:
     if not np.any(weak & ~tr.burning):
         return tr
     return dataclasses.replace(tr, burning=tr.burning | weak)
+
+
+def _last_level_step(
+    tr: ArcTrace, k_f: int, n: float, *, floor_idx: int, rel: float = 0.1, span: float = 10.0
+) -> int | None:
+    """The last step of the open-phase level in the ``span`` cycles before ``k_f``.
+
+    The one-cycle level ramps over a cycle after a change, so ``step_score`` with a half-width
+    of one cycle peaks half a cycle after it. A step must exceed ``rel`` of the smaller side.
+    Returns the index (into the trace) of the change, or None.
+    """
+    w = max(2, round(n))
+    lo = max(k_f - int(span * n), floor_idx, w)
+    hi = min(k_f + w, tr.level_pu.shape[0] - w)
+    if hi - lo < 2 * w:
+        return None
+    lvl = np.nan_to_num(tr.level_pu, nan=0.0)
+    score = step_score(lvl[lo - w : hi + w], n=w)[w : w + hi - lo]
+    if not np.any(np.isfinite(score)):
+        return None
+    ref_lvl = max(float(np.median(lvl[max(lo - w, 0) : lo])), 1e-6)
+    big = np.flatnonzero(np.abs(np.nan_to_num(score)) > rel * ref_lvl)
+    if big.size == 0:
+        return None
+    # the last run of large scores; its peak is half a cycle after the change
+    ends = np.flatnonzero(np.diff(big) > 1)
+    start = int(big[ends[-1] + 1]) if ends.size else int(big[0])
+    run = np.arange(start, int(big[-1]) + 1)
+    peak = int(run[np.argmax(np.abs(score[run]))])
+    return max(lo + peak - w // 2, 0)
 
 
 def _floor_reached(h: np.ndarray, floor: float, contrast: float) -> int | None:
@@ -514,9 +544,14 @@ def detect_extinction(
     ref = _refine(v, t, kc=k_f, n=n, f_hz=q.f_hz, lo=lo, hi=b, arc_amp=arc_amp)
     if ref is not None and not k_est - 0.3 * n <= ref[0] <= k_f:
         ref = None  # the fit's departure is not where the harmonic window says
+    step = None if ref is not None else _last_level_step(tr, k_f - a, n, floor_idx=lo - a)
     if ref is not None:
         k_ext, thr = ref
         unc = max(dt, 0.05 * q.cycle_s)
+    elif step is not None:
+        k_ext, thr = a + step, float("nan")
+        unc = 0.25 * q.cycle_s
+        method = "last step of the open-phase voltage level after the arc signature"
     else:
         k_ext, thr = k_est, float("nan")
         unc = 0.25 * q.cycle_s
