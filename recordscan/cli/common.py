@@ -3,12 +3,13 @@
 from __future__ import annotations
 
 import json
-import os
-import tempfile
-from pathlib import Path
 from typing import Any
 
 import click
+
+from recordscan.core.files import atomic_write_bytes, atomic_write_text
+
+__all__ = ["CAUTION", "atomic_write_bytes", "atomic_write_text", "echo_json", "to_json_text"]
 
 CAUTION = (
     "Caution: recordscan results support, never replace, the judgement of a qualified "
@@ -38,22 +39,3 @@ def _clean(obj: Any) -> Any:
 def to_json_text(obj: Any, *, indent: int | None = None) -> str:
     """Serialise to JSON text with NaN/inf mapped to null and numpy scalars unwrapped."""
     return json.dumps(_clean(obj), ensure_ascii=False, allow_nan=False, indent=indent)
-
-
-def atomic_write_text(path: str | os.PathLike[str], text: str, *, encoding: str = "utf-8") -> None:
-    """Write a text file so that a crash never leaves it half-written."""
-    atomic_write_bytes(path, text.encode(encoding))
-
-
-def atomic_write_bytes(path: str | os.PathLike[str], data: bytes) -> None:
-    """Write bytes to ``path`` through a temporary file and an atomic rename."""
-    target = Path(path)
-    target.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=target.parent, prefix=f".{target.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-        os.replace(tmp, target)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise

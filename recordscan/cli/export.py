@@ -10,14 +10,13 @@ inverted), so that the clipped file is faithful to its source.
 from __future__ import annotations
 
 import json
-import os
-import tempfile
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 import click
 
 from recordscan.cli.common import atomic_write_text, echo_json
+from recordscan.core.files import temporary_for
 from recordscan.errors import RecordScanError
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -167,15 +166,8 @@ def write_parquet(record: Record, path: Path, *, inverted: tuple[str, ...] = ())
     meta = dict(table.schema.metadata or {})
     meta[b"recordscan"] = json.dumps(_metadata(record), ensure_ascii=False).encode("utf-8")
     table = table.replace_schema_metadata(meta)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    os.close(fd)
-    try:
+    with temporary_for(path) as tmp:
         pq.write_table(table, tmp)
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
     return path
 
 

@@ -23,6 +23,7 @@ from typing import Any
 import numpy as np
 
 from recordscan.core import roles as R
+from recordscan.core.files import atomic_write_text
 from recordscan.core.record import AnalogChannel, Record, StatusChannel
 from recordscan.errors import RecordScanError
 from recordscan.relaytest.manifest import TruthCase, manifest_csv, manifest_json
@@ -304,18 +305,4 @@ def build_playback_set(
 
 def _write_text(path: Path, text: str) -> None:
     """Write through a temporary file and a rename (never half-written)."""
-    import os
-    import tempfile
-
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="") as fh:
-            fh.write(text)
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
+    atomic_write_text(path, text)

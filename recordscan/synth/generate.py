@@ -15,8 +15,6 @@ import cmath
 import dataclasses
 import json
 import math
-import os
-import tempfile
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -24,6 +22,7 @@ from typing import Any
 
 import numpy as np
 
+from recordscan.core.files import atomic_write_text
 from recordscan.core.record import Record
 from recordscan.errors import FormatError, ModelError
 from recordscan.synth.recorder import ENDS, PHASES, Timing, record_end
@@ -570,14 +569,4 @@ def _json_clean(obj: Any) -> Any:
 
 
 def _atomic_text(path: Path, text: str) -> None:
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(text)
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)  # as an ordinary open() would create it
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
+    atomic_write_text(path, text)

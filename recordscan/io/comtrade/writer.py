@@ -20,11 +20,11 @@ from __future__ import annotations
 
 import math
 import os
-import tempfile
 from pathlib import Path
 
 import numpy as np
 
+from recordscan.core.files import atomic_write_many
 from recordscan.core.record import Record
 from recordscan.errors import FormatError
 from recordscan.io.comtrade.cff import build_cff
@@ -328,17 +328,4 @@ def write(
 
 def _write_all(files: list[tuple[Path, bytes]]) -> None:
     """Write every file to a temporary name, then rename them all into place."""
-    temps: list[tuple[str, Path]] = []
-    try:
-        for final, data in files:
-            final.parent.mkdir(parents=True, exist_ok=True)
-            fd, tmp = tempfile.mkstemp(dir=final.parent, prefix=f".{final.name}.", suffix=".tmp")
-            temps.append((tmp, final))
-            with os.fdopen(fd, "wb") as fh:
-                fh.write(data)
-        for tmp, final in temps:
-            os.replace(tmp, final)
-    except BaseException:
-        for tmp, _ in temps:
-            Path(tmp).unlink(missing_ok=True)
-        raise
+    atomic_write_many(files)
