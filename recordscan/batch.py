@@ -132,15 +132,9 @@ def pair_records(records: Sequence[Path]) -> list[tuple[Path, Path | None]]:
 
 
 def _load_toml(path: Path) -> dict[str, Any]:
-    try:
-        import tomllib
-    except ModuleNotFoundError:  # pragma: no cover - Python 3.10
-        import tomli as tomllib  # type: ignore[no-redef]
-    try:
-        with path.open("rb") as fh:
-            return tomllib.load(fh)
-    except (OSError, ValueError) as exc:
-        raise FormatError(f"{path}: cannot read folder line map: {exc}") from None
+    from recordscan.core.tomlfile import read_toml
+
+    return read_toml(path, what="folder line map")
 
 
 def match_line(record: Path, *, stop_at: Path | None = None) -> str | None:

@@ -396,7 +396,7 @@ def test_bad_profile_files(tmp_path: Path) -> None:
     p.write_bytes(b"name = '\xff'\n")
     with pytest.raises(FormatError, match="not UTF-8"):
         load_profile(p)
-    with pytest.raises(MissingFileError, match=r"nowhere\.toml: recorder profile not found"):
+    with pytest.raises(MissingFileError, match=r"nowhere\.toml: recorder profile file not found"):
         load_profile(tmp_path / "nowhere.toml")
 
 

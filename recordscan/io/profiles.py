@@ -30,7 +30,8 @@ import numpy as np
 
 from recordscan.core import roles as R
 from recordscan.core.record import AnalogChannel, Record, StatusChannel
-from recordscan.errors import FormatError, MissingFileError, RoleError
+from recordscan.core.tomlfile import read_toml
+from recordscan.errors import FormatError, RoleError
 from recordscan.io.channel_names import Candidate, classify_channel, name_tokens
 
 __all__ = [
@@ -211,26 +212,8 @@ def load_profile(path: str | Path) -> Profile:
         The file is not TOML, or a key is unknown or has a bad value; the message names the
         file and the key.
     """
-    try:
-        import tomllib
-    except ModuleNotFoundError:  # pragma: no cover - Python 3.10
-        import tomli as tomllib  # type: ignore[no-redef]
-
     p = Path(path)
-    try:
-        raw = p.read_bytes()
-    except FileNotFoundError:
-        raise MissingFileError(f"{p}: recorder profile not found") from None
-    except OSError as exc:
-        raise FormatError(f"{p}: cannot read recorder profile ({exc.strerror})") from None
-    try:
-        text = raw.decode("utf-8")
-    except UnicodeDecodeError as exc:
-        raise FormatError(f"{p}: profile is not UTF-8 text (byte {exc.start})") from None
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise FormatError(f"{p}: not valid TOML: {exc}") from None
+    data = read_toml(p, what="recorder profile")
     return parse_profile(data, source=p)
 
 

@@ -30,7 +30,8 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from recordscan.errors import FormatError, MissingFileError, ModelError
+from recordscan.core.tomlfile import read_toml
+from recordscan.errors import FormatError, ModelError
 from recordscan.physics.line_constants import (
     Bundle,
     Conductor,
@@ -42,9 +43,9 @@ from recordscan.physics.line_constants import (
 from recordscan.physics.reactors import FourLeggedReactor, reactance_from_mvar_ohm
 
 if sys.version_info >= (3, 11):
-    import tomllib
+    pass
 else:  # pragma: no cover - Python 3.10
-    import tomli as tomllib
+    pass
 
 __all__ = ["LineDescription", "load_line", "parse_line"]
 
@@ -204,14 +205,7 @@ def load_line(path: str | Path) -> LineDescription:
         The file is not valid TOML or breaks the schema; the message names file and key.
     """
     p = Path(path)
-    if not p.is_file():
-        raise MissingFileError(f"{p}: line description file not found")
-    try:
-        data = tomllib.loads(p.read_text(encoding="utf-8"))
-    except UnicodeDecodeError as exc:
-        raise FormatError(f"{p}: not UTF-8 text ({exc.reason})") from None
-    except tomllib.TOMLDecodeError as exc:
-        raise FormatError(f"{p}: not valid TOML: {exc}") from None
+    data = read_toml(p, what="line description")
     return parse_line(data, source=str(p))
 
 

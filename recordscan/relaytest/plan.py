@@ -35,6 +35,7 @@ from typing import Any
 
 import numpy as np
 
+from recordscan.core.tomlfile import read_toml
 from recordscan.errors import FormatError, ModelError, RecordScanError
 from recordscan.relaytest.plan_vars import (
     VARIABLES,
@@ -738,16 +739,5 @@ def load_plan(path: str | Path) -> Plan:
         The file is missing, not TOML, or breaks the schema (message names file and key).
     """
     p = Path(path)
-    try:
-        raw = p.read_bytes()
-    except FileNotFoundError:
-        raise FormatError(f"{p}: plan file not found") from None
-    except OSError as exc:
-        raise FormatError(f"{p}: cannot read the plan ({exc.strerror or exc})") from None
-    try:
-        data = tomllib.loads(raw.decode("utf-8"))
-    except UnicodeDecodeError:
-        raise FormatError(f"{p}: the plan is not UTF-8 text") from None
-    except tomllib.TOMLDecodeError as exc:
-        raise FormatError(f"{p}: not valid TOML ({exc})") from None
+    data = read_toml(p, what="plan")
     return parse_plan(data, where=str(p), base_dir=p.parent)

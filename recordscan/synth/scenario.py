@@ -21,12 +21,13 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from recordscan.core.tomlfile import read_toml
 from recordscan.errors import FormatError
 
 if sys.version_info >= (3, 11):  # pragma: no cover - version switch
-    import tomllib
+    pass
 else:  # pragma: no cover
-    import tomli as tomllib
+    pass
 
 __all__ = [
     "ArcSettings",
@@ -754,19 +755,7 @@ def load_scenario(path: str | Path) -> Scenario:
     recordscan.errors.FormatError
         The file is not valid TOML or breaks the schema (message names file and key).
     """
-    from recordscan.errors import MissingFileError
 
     p = Path(path)
-    try:
-        raw = p.read_bytes()
-    except FileNotFoundError:
-        raise MissingFileError(f"{p}: scenario file not found") from None
-    except OSError as exc:
-        raise FormatError(f"{p}: cannot read scenario ({exc.strerror})") from None
-    try:
-        data = tomllib.loads(raw.decode("utf-8"))
-    except UnicodeDecodeError:
-        raise FormatError(f"{p}: scenario is not UTF-8 text") from None
-    except tomllib.TOMLDecodeError as exc:
-        raise FormatError(f"{p}: not valid TOML ({exc})") from None
+    data = read_toml(p, what="scenario")
     return parse_scenario(data, where=str(p), base_dir=p.parent)

@@ -24,7 +24,8 @@ from typing import Any
 
 import numpy as np
 
-from recordscan.errors import FormatError, MissingFileError, ModelError
+from recordscan.core.tomlfile import read_toml
+from recordscan.errors import FormatError, ModelError
 from recordscan.synth.scenario import (
     ArcSettings,
     BreakerSettings,
@@ -376,17 +377,12 @@ def load_ranges(path: str | Path) -> SweepRanges:
     import sys
 
     if sys.version_info >= (3, 11):  # pragma: no cover - version switch
-        import tomllib
+        pass
     else:  # pragma: no cover
-        import tomli as tomllib
+        pass
 
     p = Path(path)
-    try:
-        data = tomllib.loads(p.read_text(encoding="utf-8"))
-    except FileNotFoundError:
-        raise MissingFileError(f"{p}: range file not found") from None
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
-        raise FormatError(f"{p}: not valid TOML ({exc})") from None
+    data = read_toml(p, what="range")
     extra = sorted(set(data) - {"sweep"})
     if extra:
         raise FormatError(f"{p}: {extra[0]}: a range file holds only a [sweep] table")
