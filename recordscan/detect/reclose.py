@@ -79,7 +79,8 @@ def detect_reclose(
         Shared computed quantities.
     fault_factor : float
         After the reclose, a current above ``max(fault_factor·fault current, 2·load)``
-        means a reclose onto a fault.
+        means a reclose onto a fault — unless it stays below twice that and the phase voltage
+        came back above 95 % of its pre-fault value (a long line's charging current).
 
     Returns
     -------
@@ -155,7 +156,21 @@ def detect_reclose(
         mag = q.magnitude(role_i)[k_a:k_b]
         mag = mag[np.isfinite(mag)]
         level = max(fault_factor * (fault_current_rms_a or 0.0), 2.0 * (load_current_rms_a or 0.0))
-        if mag.size and fault_current_rms_a and float(np.max(mag)) > level:
+        i_max = float(np.max(mag)) if mag.size else 0.0
+        onto_fault = bool(fault_current_rms_a and i_max > level)
+        if (
+            onto_fault
+            and i_max < 2.0 * fault_factor * (fault_current_rms_a or 0.0)
+            and v_phase_rms_v
+            and q.values(V_LINE[phase]) is not None
+        ):
+            # a moderate current with the phase voltage fully back is the charging current of
+            # a long line, not a fault (a fault holds the voltage down)
+            v_after = q.magnitude(V_LINE[phase])[k_a:k_b]
+            v_after = v_after[np.isfinite(v_after)]
+            if v_after.size and float(np.median(v_after)) > 0.95 * v_phase_rms_v:
+                onto_fault = False
+        if onto_fault:
             outcome = "reclose_onto_fault"
             three = _three_pole_trip(q, after=k_rc + int(n))
     return RecloseResult(reclose, outcome, three, t_rc - open_s)
