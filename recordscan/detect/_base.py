@@ -41,7 +41,8 @@ def decimate_record(record: Record, *, min_samples_per_cycle: float = 40.0) -> R
     stamped at the mean of its instants (a boxcar anti-alias filter with nulls at multiples
     of the new rate; gain at the 7th harmonic ≥ 0.99 for 40 samples per cycle — derived from
     the boxcar's sinc response). Trailing samples that do not fill a block are dropped; digital
-    channels keep the last sample of each block; gaps stay gaps. Returns ``record`` itself when
+    channels keep the last sample of each block; gaps stay gaps; channels without a role are
+    left out. Returns ``record`` itself when
     no segment is fast enough to decimate.
     """
     f = record.frequency_hz or 50.0
@@ -49,26 +50,29 @@ def decimate_record(record: Record, *, min_samples_per_cycle: float = 40.0) -> R
     factors = [max(1, int(s.rate_hz // (min_samples_per_cycle * f))) for s in segs]
     if all(k == 1 for k in factors):
         return record
+    # only channels with a role matter to the detectors
+    record_analog = [ch for ch in record.analog if ch.role]
+    record_digital = [ch for ch in record.digital if ch.role]
     t_parts: list[np.ndarray] = []
-    a_parts: list[list[np.ndarray]] = [[] for _ in record.analog]
-    d_parts: list[list[np.ndarray]] = [[] for _ in record.digital]
+    a_parts: list[list[np.ndarray]] = [[] for _ in record_analog]
+    d_parts: list[list[np.ndarray]] = [[] for _ in record_digital]
     for seg, k in zip(segs, factors, strict=True):
         n_blk = seg.n_samples // k
         if n_blk == 0:
             continue
         lo, hi = seg.start_idx, seg.start_idx + n_blk * k
         t_parts.append(record.t_s[lo:hi].reshape(n_blk, k).mean(axis=1))
-        for j, ch in enumerate(record.analog):
+        for j, ch in enumerate(record_analog):
             a_parts[j].append(ch.values[lo:hi].reshape(n_blk, k).mean(axis=1))
-        for j, ch in enumerate(record.digital):
+        for j, ch in enumerate(record_digital):
             d_parts[j].append(ch.values[lo + k - 1 : hi : k])
     analog = [
         ch.with_values(np.concatenate(parts))
-        for ch, parts in zip(record.analog, a_parts, strict=True)
+        for ch, parts in zip(record_analog, a_parts, strict=True)
     ]
     digital = [
         ch.with_values(np.concatenate(parts))
-        for ch, parts in zip(record.digital, d_parts, strict=True)
+        for ch, parts in zip(record_digital, d_parts, strict=True)
     ]
     return Record(
         t_s=np.concatenate(t_parts),
@@ -288,8 +292,56 @@ class Quantities:
         n_h = sum(1 for h in HARMONICS if h * self.f_hz < 0.45 * fs)
         return n_h * 2.0 * self.noise(role) ** 2 / length
 
-    def hratio(self, role: str) -> np.ndarray:
-        """Sliding one-cycle ratio of harmonics 3, 5 (7 when sampled) to the RMS of ``role``."""
+    def hratio(self, role: str, lo: int | None = None, hi: int | None = None) -> np.ndarray:
+        """Sliding ratio of harmonics 3, 5 (7 when sampled) to the RMS of ``role``.
+
+        Only samples ``lo:hi`` are computed (on a stretch three windows wider on each side,
+        so that the filter's edges stay outside); the rest is NaN.
+        """
+        n_all = self.record.n_samples
+        lo = 0 if lo is None else max(0, lo)
+        hi = n_all if hi is None else min(n_all, hi)
+        if lo > 0 or hi < n_all:
+            key = (role, f"hratio:{lo}:{hi}")
+            if key not in self._cache:
+                pad = int(
+                    np.ceil(3 * self.n_cycle(lo) * self.hratio_cycles(self.segment_at(lo).rate_hz))
+                )
+                a = max(self.segment_at(lo).start_idx, lo - pad)
+                b = min(self.seg_end(max(hi - 1, lo)), hi + pad)  # keep filter edges away
+                sub = self._hratio_range(role, a, b)
+                out = np.full(n_all, np.nan)
+                out[lo:hi] = sub[lo - a : hi - a]
+                out.setflags(write=False)
+                self._cache[key] = out
+            return self._cache[key]
+        return self._hratio_full(role)
+
+    def _hratio_range(self, role: str, a: int, b: int) -> np.ndarray:
+        """Harmonic ratio over samples ``a:b`` computed on that stretch alone (per segment)."""
+        x = np.nan_to_num(self.values(role))
+        out = np.full(b - a, np.nan)
+        for sgm in self.segments:
+            s0, s1 = max(sgm.start_idx, a), min(sgm.stop_idx, b)
+            if s1 - s0 < sgm.rate_hz / self.f_hz + 1:
+                continue
+            out[s0 - a : s1 - a] = self._hratio_piece(x[s0:s1], sgm.rate_hz, float(self.t_s[s0]))
+        return out
+
+    def _hratio_piece(self, p: np.ndarray, fs: float, t0: float) -> np.ndarray:
+        f = self.f_hz
+        hp = highpass(p, fs_hz=fs, cutoff_hz=2.0 * f) if fs > 5.0 * f else p
+        return harmonic_ratio(
+            hp,
+            fs_hz=fs,
+            f_hz=f,
+            harmonics=HARMONICS,
+            t0_s=t0,
+            rms_of=p,
+            n_cycles=self.hratio_cycles(fs),
+        )
+
+    def _hratio_full(self, role: str) -> np.ndarray:
         f = self.f_hz
 
         def make(x: np.ndarray) -> np.ndarray:

@@ -70,7 +70,7 @@ def measure_recovery_voltage(
     quantities: Quantities | None = None,
     estimate_rms_v: float | None = None,
     skip_cycles: float = 0.5,
-    max_window_s: float = 1.0,
+    max_window_s: float = 0.5,
 ) -> RecoveryVoltage | None:
     """Measure the open phase's recovery voltage between ``from_s`` and ``until_s``.
 
@@ -89,7 +89,7 @@ def measure_recovery_voltage(
     skip_cycles : float
         Cycles skipped after the extinction (the switching transient).
     max_window_s : float
-        Longest window analysed.
+        Longest window analysed (0.5 s resolves beats down to a few Hz).
 
     Returns
     -------

@@ -173,7 +173,7 @@ def arc_trace(
     b = max(min(q.idx(until_s), record.n_samples), a)
     if until_s >= record.t_s[-1]:
         b = record.n_samples
-    h_raw = np.asarray(q.hratio(role)[a:b])
+    h_raw = np.asarray(q.hratio(role, a, b)[a:b])
     rms = q.rms(role)[a:b]
     # remove the expected noise power from the harmonic bins; demand significance over it
     p_noise = q.hratio_noise(role, a)

@@ -278,7 +278,7 @@ def fit_beat(
     """
     x = np.asarray(x, dtype=np.float64)
     peak = float(np.max(np.abs(x))) if x.size else 0.0
-    step = max(1, int(fs_hz // (20.0 * f_hz)))  # ≥ 20 samples per cycle are plenty here
+    step = max(1, int(fs_hz // (12.0 * f_hz)))  # ≥ 12 samples per cycle: f, f_n ≤ 1.7 f
     x = x[::step]
     fs_hz = fs_hz / step
     t = np.arange(x.shape[0]) / fs_hz
@@ -299,7 +299,7 @@ def fit_beat(
     f_guess = float(freqs[band][np.argmax(spec[band])])
     step = max(fs_hz / n_fft * 4, 1.0 / dur)
     lo, hi = max(0.3 * f_hz, f_guess - step), min(1.7 * f_hz, f_guess + step)
-    fn = _golden(lambda fr: _ls_fit(x, t, [f_hz, fr])[1], lo, hi, tol=1e-3)
+    fn = _golden(lambda fr: _ls_fit(x, t, [f_hz, fr])[1], lo, hi, tol=0.01)
     coef2, res2 = _ls_fit(x, t, [f_hz, fn])
     forced2 = float(np.hypot(coef2[1], coef2[2]) / np.sqrt(2.0))
     free2 = float(np.hypot(coef2[3], coef2[4]) / np.sqrt(2.0))
