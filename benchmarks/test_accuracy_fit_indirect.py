@@ -109,8 +109,9 @@ def _draw(k: int) -> tuple[Scenario, Any]:
         load=LoadSettings(angle_deg=round(float(rng.uniform(0.0, 15.0)), 2)),
         instruments=InstrumentSettings(
             vt=str(rng.choice(["ideal", "magnetic"])),
-            rate_hz=float(rng.choice([960.0, 1200.0, 1920.0, 2400.0, 4000.0, 4800.0, 7680.0,
-                                      10000.0])),  # fmt: skip
+            rate_hz=float(
+                rng.choice([960.0, 1200.0, 1920.0, 2400.0, 4000.0, 4800.0, 7680.0, 10000.0])
+            ),
             snr_db=round(float(rng.uniform(40.0, 60.0)), 1),
             record_length_s=round(0.1 + 0.07 + dead + 0.25, 3),
             pre_fault_s=0.1,
@@ -217,8 +218,9 @@ def test_indirect_fit_accuracy() -> None:
             )
         ),
         "alpha_within_0.15": float(
-            np.mean([("alpha_fit" in r and abs(r["alpha_fit"] - r["alpha"]) <= 0.15)
-                     for r in ext_rows])  # fmt: skip
+            np.mean(
+                [("alpha_fit" in r and abs(r["alpha_fit"] - r["alpha"]) <= 0.15) for r in ext_rows]
+            )
         ),
         "fit_time_median_s": float(np.median(times)),
         "fit_time_max_s": float(times.max()),
@@ -250,8 +252,10 @@ def _write_docs(rows: list[dict[str, Any]], summary: dict[str, Any]) -> None:
     ax[0].legend(fontsize=7)
     ax[0].set_xlabel("elongation rate error [%]")
     ee = np.array(
-        [(r["ext_fit"] - r["ext"]) * r["f"] if r.get("ext_fit") is not None else 3.0
-         for r in ext_rows]  # fmt: skip
+        [
+            (r["ext_fit"] - r["ext"]) * r["f"] if r.get("ext_fit") is not None else 3.0
+            for r in ext_rows
+        ]
     )
     ax[1].hist(np.clip(ee, -3, 3), bins=np.linspace(-3, 3, 25), color="#4d4d4d",
                edgecolor="white")  # fmt: skip

@@ -43,7 +43,9 @@ __all__ = [
     "open_phase_circuit",
     "reactor_flux",
     "series_drop",
+    "simulate_open_line",
     "simulate_open_phase",
+    "terminal_terms",
 ]
 
 _PHASES = ("A", "B", "C")
@@ -230,12 +232,55 @@ def series_drop(
         return r @ x + ell @ np.gradient(x, t, axis=1)
 
     length = float(line.length_m)
-    return (
-        z_of(i0),
-        z_of(shunt),
-        np.diag(np.diag(r)) @ (length * shunt)
-        + np.diag(np.diag(ell)) @ np.gradient(length * shunt, t, axis=1),
-    )
+    return z_of(i0), z_of(shunt), length * _z_diag(r, ell, shunt, t)
+
+
+def _z_diag(r: np.ndarray, ell: np.ndarray, x: np.ndarray, t: np.ndarray) -> np.ndarray:
+    """Each phase's own series drop ``r_jj·x_j + l_jj·dx_j/dt`` (no mutual terms)."""
+    return np.diag(r)[:, None] * x + np.diag(ell)[:, None] * np.gradient(x, t, axis=1)
+
+
+def terminal_terms(
+    t_s: np.ndarray,
+    v_abc_v: np.ndarray,
+    i_abc_a: np.ndarray,
+    line: Any,
+    *,
+    gamma_end_per_h: np.ndarray | None = None,
+    lam_abc_vs: np.ndarray | None = None,
+    cutoff_hz: float | None = None,
+) -> dict[str, np.ndarray]:
+    """Power-frequency terms of one terminal for the sectioned open-conductor model.
+
+    Returns
+    -------
+    dict
+        ``v`` (3, n) filtered terminal voltages; ``a``, ``b`` the drop terms of
+        :func:`series_drop` (``v_j(s) = v_j(0) − s·a_j + s²/2·b_j``); ``a_own``, ``b_own``
+        each phase's own share of them (``r_jj``, ``l_jj`` only), so that
+        ``a_k − a_own_k`` is the voltage per metre induced on phase k by the others.
+    """
+    t = np.asarray(t_s, dtype=float)
+    fs = 1.0 / float(np.median(np.diff(t)))
+    fc = cutoff_hz if cutoff_hz is not None else 8.0 * float(line.frequency_hz)
+    cst = line.constants
+    r = np.asarray(cst.r_ohm_per_m, dtype=float)
+    ell = np.asarray(cst.l_h_per_m, dtype=float)
+    c = np.asarray(cst.c_f_per_m, dtype=float)
+    i0 = _lowpass(np.asarray(i_abc_a, dtype=float), fs_hz=fs, cutoff_hz=fc)
+    if gamma_end_per_h is not None and lam_abc_vs is not None:
+        i0 = i0 - _lowpass(gamma_end_per_h @ lam_abc_vs, fs_hz=fs, cutoff_hz=fc)
+    v = _lowpass(np.asarray(v_abc_v, dtype=float), fs_hz=fs, cutoff_hz=fc)
+    shunt = c @ np.gradient(v, t, axis=1)
+    a = r @ i0 + ell @ np.gradient(i0, t, axis=1)
+    b = r @ shunt + ell @ np.gradient(shunt, t, axis=1)
+    return {
+        "v": v,
+        "a": a,
+        "b": b,
+        "a_own": _z_diag(r, ell, i0, t),
+        "b_own": _z_diag(r, ell, shunt, t),
+    }
 
 
 def _lowpass(x: np.ndarray, *, fs_hz: float, cutoff_hz: float) -> np.ndarray:
@@ -478,5 +523,268 @@ def simulate_open_phase(
         i_a=out[1],
         g_siemens=out[2],
         l_m=out[3],
+        extinction_s=None if ext < 0 else float(t[ext]),
+    )
+
+
+# --------------------------------------------------------------------------- sectioned line
+
+
+def _open_line_kernel(
+    dt: float,
+    cap: np.ndarray,
+    alpha_b: np.ndarray,
+    beta_b: np.ndarray,
+    b: np.ndarray,
+    e: np.ndarray,
+    h: np.ndarray,
+    g_end: np.ndarray,
+    leak: float,
+    v_init: np.ndarray,
+    lam_init: np.ndarray,
+    arc_node: int,
+    g0: float,
+    u0: float,
+    r0: float,
+    tau0: float,
+    alpha: float,
+    l0: float,
+    gmin: float,
+    drdt: float,
+    code: int,
+    p1: float,
+    p2: float,
+    t_el0: float,
+    forced: bool,
+    out_v0: np.ndarray,
+    out_vn: np.ndarray,
+    out_va: np.ndarray,
+    out_i: np.ndarray,
+    out_g: np.ndarray,
+    out_l: np.ndarray,
+) -> int:
+    """Trapezoidal nodal solution of the open conductor as a chain of pi sections.
+
+    Node equations (tridiagonal) with the arc at ``arc_node`` (conductance held over the
+    step, then advanced by the exponential update) and reactor banks at the end nodes.
+    Returns the index of the model's extinction (−1 if none).
+    """
+    nn = cap.shape[0]
+    nb = nn - 1
+    ns = b.shape[1]
+    v = v_init.copy()
+    ib = np.zeros(nb)
+    for m in range(nb):
+        ib[m] = 0.0
+    lam = lam_init.copy()
+    kap = 1.0 / (1.0 + 0.5 * dt * leak)
+    g = g0
+    ext = -1
+    diag = np.empty(nn)
+    low = np.empty(nn)
+    up = np.empty(nn)
+    rhs = np.empty(nn)
+    hist = np.empty(nb)
+    cp = np.empty(nn)
+    dp = np.empty(nn)
+    out_v0[0] = v[0]
+    out_vn[0] = v[nn - 1]
+    out_va[0] = v[arc_node]
+    out_i[0] = g * v[arc_node]
+    out_g[0] = g
+    out_l[0] = _elong(code, p1, p2, t_el0, l0)
+    for s in range(ns - 1):
+        for m in range(nb):
+            # i' = α·(v_m' − v_{m+1}') + hist, trapezoidal R–L branch with its emf
+            hist[m] = beta_b[m] * ib[m] + alpha_b[m] * (v[m] - v[m + 1] - e[m, s] - e[m, s + 1])
+        for n in range(nn):
+            diag[n] = cap[n]
+            low[n] = 0.0
+            up[n] = 0.0
+            inflow = 0.0
+            if n > 0:
+                diag[n] += 0.5 * dt * alpha_b[n - 1]
+                low[n] = -0.5 * dt * alpha_b[n - 1]
+                inflow += ib[n - 1] + hist[n - 1]
+            if n < nb:
+                diag[n] += 0.5 * dt * alpha_b[n]
+                up[n] = -0.5 * dt * alpha_b[n]
+                inflow -= ib[n] + hist[n]
+            rhs[n] = cap[n] * v[n] - (b[n, s + 1] - b[n, s]) + 0.5 * dt * inflow
+            if n == arc_node:
+                diag[n] += 0.5 * dt * g
+                rhs[n] -= 0.5 * dt * g * v[n]
+            if g_end[n] != 0.0:
+                # reactor: i_r = Γ·λ + h, λ' = κ·(λ·(1 − a/2) + dt/2·(v + v'))
+                gk = g_end[n]
+                diag[n] += 0.5 * dt * gk * kap * 0.5 * dt
+                lam_c = kap * (lam[n] * (1.0 - 0.5 * dt * leak) + 0.5 * dt * v[n])
+                ir_old = gk * lam[n] + h[n, s]
+                rhs[n] -= 0.5 * dt * (ir_old + gk * lam_c + h[n, s + 1])
+        # Thomas algorithm
+        cp[0] = up[0] / diag[0]
+        dp[0] = rhs[0] / diag[0]
+        for n in range(1, nn):
+            den = diag[n] - low[n] * cp[n - 1]
+            cp[n] = up[n] / den
+            dp[n] = (rhs[n] - low[n] * dp[n - 1]) / den
+        vn = np.empty(nn)
+        vn[nn - 1] = dp[nn - 1]
+        for n in range(nn - 2, -1, -1):
+            vn[n] = dp[n] - cp[n] * vn[n + 1]
+        for m in range(nb):
+            ib[m] = alpha_b[m] * (vn[m] - vn[m + 1]) + hist[m]
+        for n in range(nn):
+            if g_end[n] != 0.0:
+                lam[n] = kap * (lam[n] * (1.0 - 0.5 * dt * leak) + 0.5 * dt * (v[n] + vn[n]))
+        v = vn
+        va = v[arc_node]
+        i_arc = g * va
+        ell = _elong(code, p1, p2, t_el0 + (s + 1) * dt, l0)
+        if g > 0.0:
+            g_new = _step(g, i_arc, ell, dt, u0, r0, tau0, alpha, l0)
+            if (not forced) and _ext(g_new, g, ell, dt, gmin, drdt):
+                g_new = 0.0
+                ext = s + 1
+            g = g_new
+        out_v0[s + 1] = v[0]
+        out_vn[s + 1] = v[nn - 1]
+        out_va[s + 1] = va
+        out_i[s + 1] = i_arc
+        out_g[s + 1] = g
+        out_l[s + 1] = ell
+    return ext
+
+
+_LINE_KERNEL: list[Any] = []
+
+
+def _compiled_line() -> Any:
+    if not _LINE_KERNEL:
+        import numba
+
+        _compiled()  # binds the compiled scalar arc functions first
+        _LINE_KERNEL.append(numba.njit(cache=False, nogil=True)(_open_line_kernel))
+    return _LINE_KERNEL[0]
+
+
+@dataclass(frozen=True)
+class OpenLineResponse:
+    """Simulated sectioned open conductor on its fine time grid.
+
+    Attributes
+    ----------
+    t_s : numpy.ndarray
+        Time [s].
+    v_local_v, v_remote_v, v_arc_v : numpy.ndarray
+        Open-phase voltage at the local end, the remote end and the arc [V].
+    i_a, g_siemens, l_m : numpy.ndarray
+        Arc current [A], conductance [S] and length [m].
+    extinction_s : float or None
+        Instant the model's arc went out.
+    """
+
+    t_s: np.ndarray
+    v_local_v: np.ndarray
+    v_remote_v: np.ndarray
+    v_arc_v: np.ndarray
+    i_a: np.ndarray
+    g_siemens: np.ndarray
+    l_m: np.ndarray
+    extinction_s: float | None
+
+
+def simulate_open_line(
+    t_s: np.ndarray,
+    line: Any,
+    circuit: OpenPhaseCircuit,
+    *,
+    b_c: np.ndarray,
+    emf_v: np.ndarray,
+    h_a: np.ndarray,
+    arc_node: int,
+    params: _arc.ArcParameters,
+    law: Any,
+    t_elongation_s: float,
+    v_init_v: np.ndarray,
+    lam_init_vs: np.ndarray,
+    g0_siemens: float | None = None,
+    forced_burning: bool = False,
+) -> OpenLineResponse:
+    """Simulate the open conductor as ``N`` pi sections with the arc at one node.
+
+    Parameters
+    ----------
+    t_s : numpy.ndarray
+        Uniform fine grid [s].
+    line : LineDescription
+        The line (per-length ``r``, ``l``, ``c`` of the open phase, length).
+    circuit : OpenPhaseCircuit
+        Open phase and reactor banks.
+    b_c : numpy.ndarray
+        (N+1, n) healthy phases' share of each node's charge ``w·Δ·Σ_{j≠k} c_kj·v_j(s)``
+        [C] (``w`` = ½ at the end nodes).
+    emf_v : numpy.ndarray
+        (N, n) voltage induced in each section by the healthy phases' currents [V].
+    h_a : numpy.ndarray
+        (N+1, n) healthy phases' share of the reactor current at each node [A] (zeros
+        except at the end nodes with a bank).
+    arc_node : int
+        Node of the fault.
+    params, law, t_elongation_s
+        Arc parameters, elongation law and the elongation clock at the first instant.
+    v_init_v, lam_init_vs : numpy.ndarray
+        (N+1,) node voltages and reactor fluxes at the first instant.
+    g0_siemens : float, optional
+        Arc conductance at the first instant (default: carries 30 A at ``u0·l``).
+    forced_burning : bool
+        Suppress the extinction test.
+
+    Returns
+    -------
+    OpenLineResponse
+    """
+    t = np.ascontiguousarray(t_s, dtype=float)
+    dt = float(t[1] - t[0])
+    k = circuit.phase_idx
+    nn = b_c.shape[0]
+    nb = nn - 1
+    dlen = float(line.length_m) / nb
+    cst = line.constants
+    c_kk = float(np.asarray(cst.c_f_per_m)[k, k]) * dlen
+    cap = np.full(nn, c_kk)
+    cap[0] = cap[-1] = 0.5 * c_kk
+    r_b = float(np.asarray(cst.r_ohm_per_m)[k, k]) * dlen
+    l_b = float(np.asarray(cst.l_h_per_m)[k, k]) * dlen
+    den = l_b + 0.5 * dt * r_b
+    alpha_b = np.full(nb, 0.5 * dt / den)
+    beta_b = np.full(nb, (l_b - 0.5 * dt * r_b) / den)
+    g_end = np.zeros(nn)
+    g_end[0] = float(circuit.gamma_ends_per_h[0][k, k])
+    g_end[-1] = float(circuit.gamma_ends_per_h[1][k, k])
+    leak = 0.0 if not math.isfinite(circuit.t_leak_s) else 1.0 / circuit.t_leak_s
+    p = params
+    p1, p2 = law.params
+    l_start = float(law.length_m(np.array([t_elongation_s]), p.l0_m)[0])
+    g0 = g0_siemens if g0_siemens is not None else 30.0 / (p.u0_v_per_m * l_start)
+    n = t.size
+    outs = [np.empty(n) for _ in range(6)]
+    ext = _compiled_line()(
+        dt, cap, alpha_b, beta_b,
+        np.ascontiguousarray(b_c, dtype=float), np.ascontiguousarray(emf_v, dtype=float),
+        np.ascontiguousarray(h_a, dtype=float), g_end, leak,
+        np.ascontiguousarray(v_init_v, dtype=float), np.ascontiguousarray(lam_init_vs, dtype=float),
+        int(arc_node), float(g0), p.u0_v_per_m, p.r0_ohm_per_m, p.tau0_s, p.alpha, p.l0_m,
+        p.g_min_siemens_per_m, p.dr_dt_ohm_per_m_s, int(law.code), float(p1), float(p2),
+        float(t_elongation_s), bool(forced_burning), *outs,
+    )  # fmt: skip
+    return OpenLineResponse(
+        t_s=t,
+        v_local_v=outs[0],
+        v_remote_v=outs[1],
+        v_arc_v=outs[2],
+        i_a=outs[3],
+        g_siemens=outs[4],
+        l_m=outs[5],
         extinction_s=None if ext < 0 else float(t[ext]),
     )

@@ -53,7 +53,9 @@ from recordscan.fit.circuit import (
     open_phase_circuit,
     reactor_flux,
     series_drop,
+    simulate_open_line,
     simulate_open_phase,
+    terminal_terms,
 )
 from recordscan.fit.result import (
     FITTED,
@@ -112,6 +114,15 @@ class IndirectFitOptions:
         Fit a free power-frequency phasor alongside the arc (absorbs an induced voltage the
         series-drop correction missed, but also the level of the arc voltage: ``u0`` then
         rests on the growth alone).
+    circuit_model : str
+        ``"sections"``: the open conductor as a chain of pi sections (its standing waves
+        shape the arc current on long lines), compared at the terminals; ``"lumped"``: one
+        node at the fault, compared with the terminal voltage corrected by the series drop.
+    section_m, min_sections : float, int
+        Longest section and fewest sections of the sectioned model.
+    skip_cycles : float
+        Cycles after the start of the arc episode left out of the voltage comparison
+        (pole-opening transients, the model's start-up).
     """
 
     law: str = "linear"
@@ -121,6 +132,10 @@ class IndirectFitOptions:
     tau0_bounds_s: tuple[float, float] = (0.05e-3, 10e-3)
     max_nfev: int = 200
     free_phasor: bool = False
+    circuit_model: str = "sections"
+    skip_cycles: float = 3.0
+    section_m: float = 20e3
+    min_sections: int = 6
     fit_alpha: bool = True
     alpha_bounds: tuple[float, float] = (-1.5, 0.2)
     source_band_factor: float = 3.0
@@ -169,6 +184,14 @@ class IndirectInputs:
         How the inputs were obtained (location source, restrikes ignored…).
     source : str
         Record path for messages.
+    line : LineDescription
+        The line.
+    local_end_idx : int
+        Line end (0 "from", 1 "to") of the local record.
+    terms : tuple of dict
+        Per terminal (local, then remote when used; on the local time base) the
+        power-frequency terms of :func:`recordscan.fit.circuit.terminal_terms`, with
+        ``v_raw_k`` (the open phase's measured voltage) and ``lam`` (reactor flux).
     """
 
     t_s: np.ndarray
@@ -188,6 +211,9 @@ class IndirectInputs:
     two_ended: bool
     notes: tuple[str, ...]
     source: str
+    line: Any = None
+    local_end_idx: int = 0
+    terms: tuple[dict[str, np.ndarray], ...] = ()
 
 
 def _channels(record: Record, table: dict[str, str], where: str, what: str) -> np.ndarray | None:
@@ -219,8 +245,8 @@ def _end_quantities(
     inception_s: float,
     where: str,
     cutoff_hz: float,
-) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, bool]:
-    """Terminal voltages, fault-point voltage, line-mean voltages, far-end voltages."""
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, bool, dict[str, np.ndarray]]:
+    """Terminal voltages, fault-point, line-mean and far-end voltages, terminal terms."""
     if not record.is_uniform:
         raise FitError(f"{where}: the indirect fit needs a uniformly sampled record")
     v = _channels(record, roles.V_LINE, where, "line-side voltages")
@@ -233,12 +259,20 @@ def _end_quantities(
     t = np.asarray(record.t_s, dtype=float)
     k = circ.phase_idx
     length = float(ld.length_m)
-    if i is None:
-        return v, v[k], v, v, False
     gam = circ.gamma_ends_per_h[end_idx]
     lam = None
     if np.any(gam != 0.0):
         lam = reactor_flux(t, v, t_leak_s=circ.t_leak_s, t_ref_s=inception_s)
+    if i is None:
+        i = np.zeros_like(v)
+        ok = False
+    else:
+        ok = True
+    terms = terminal_terms(t, v, i, ld, gamma_end_per_h=gam, lam_abc_vs=lam, cutoff_hz=cutoff_hz)
+    terms["v_raw_k"] = v[k]
+    terms["lam"] = lam if lam is not None else np.zeros_like(v)
+    if not ok:
+        return v, v[k], v, v, False, terms
     a_m, b_m, e_m = series_drop(
         t, v, i, ld, gamma_end_per_h=gam, lam_abc_vs=lam, cutoff_hz=cutoff_hz
     )
@@ -250,7 +284,7 @@ def _end_quantities(
     v_mean[k] = v_mean[k] - (length - d) ** 2 / (2.0 * length) * e_m[k]
     v_far = v - (length * a_m - 0.5 * length * length * b_m)
     v_far[k] = v_far[k] - (length - d) * e_m[k]
-    return v, v_f, v_mean, v_far, True
+    return v, v_f, v_mean, v_far, True, terms
 
 
 def _restrike_real(t: np.ndarray, v: np.ndarray, t_r: float, cycle: float) -> bool:
@@ -333,7 +367,7 @@ def prepare_indirect(
         x = 0.5 * length
         notes.append("fault location unknown: mid-line assumed for the series drop")
     local_idx = 1 if (record.station and record.station == ld.to_station) else 0
-    v, v_f, v_mean, v_far, drop_ok = _end_quantities(
+    v, v_f, v_mean, v_far, drop_ok, terms_l = _end_quantities(
         record, ld, circ, end_idx=local_idx, distance_m=x, inception_s=inc, where=where,
         cutoff_hz=opt.source_band_factor * record.frequency_hz,
     )  # fmt: skip
@@ -341,12 +375,13 @@ def prepare_indirect(
         notes.append("no phase currents: the series drop to the fault is neglected")
     t = np.asarray(record.t_s, dtype=float)
     v_ends = [v, v_far]  # by local/remote
+    terms_all = [terms_l]
     two = False
     if remote is not None:
         try:
             pr = an.pairing if an.pairing is not None else pair(record, remote)
             rw = remote.provenance.path or "remote record"
-            vr, vr_f, vr_mean, _vr_far, _ok_r = _end_quantities(
+            vr, vr_f, vr_mean, _vr_far, _ok_r, terms_r = _end_quantities(
                 remote, ld, circ, end_idx=1 - local_idx, distance_m=length - x,
                 inception_s=inc - pr.offset_s, where=rw,
                 cutoff_hz=opt.source_band_factor * record.frequency_hz,
@@ -360,6 +395,13 @@ def prepare_indirect(
                 v_f = 0.5 * (v_f + on_local(vr_f))
                 v_mean = 0.5 * (v_mean + np.vstack([on_local(r) for r in vr_mean]))
                 v_ends[1] = np.vstack([on_local(r) for r in vr])
+                terms_all.append(
+                    {
+                        key: (np.vstack([on_local(r) for r in val]) if val.ndim == 2
+                              else on_local(val))
+                        for key, val in terms_r.items()
+                    }
+                )  # fmt: skip
                 two = True
             else:
                 notes.append("remote record does not cover the event: not used")
@@ -422,6 +464,9 @@ def prepare_indirect(
         two_ended=two,
         notes=tuple(notes),
         source=where,
+        line=ld,
+        local_end_idx=local_idx,
+        terms=tuple(terms_all),
     )
 
 
@@ -470,7 +515,7 @@ class _Model:
         self.fs = fs
         # compared band and the samples of the burning period used in the voltage fit
         self.sos = butter(4, min(opt.band_factor * f / (0.5 * fs), 0.9), output="sos")
-        self.burn = (self.t >= inp.t_episode_s + 1.0 * self.cycle) & (
+        self.burn = (self.t >= inp.t_episode_s + opt.skip_cycles * self.cycle) & (
             self.t <= inp.t_burn_end_s - 0.5 * self.cycle
         )
         w = 2.0 * math.pi * f
@@ -512,6 +557,122 @@ class _Model:
         a = self.basis[self.burn]
         coef, *_ = np.linalg.lstsq(a, r, rcond=None)
         return r - a @ coef, coef
+
+
+@dataclass(frozen=True)
+class _LineRun:
+    v_v: np.ndarray
+    v_arc_v: np.ndarray
+    i_a: np.ndarray
+    g_siemens: np.ndarray
+    l_m: np.ndarray
+    extinction_s: float | None
+
+
+class _LineModel(_Model):
+    """The open conductor as a chain of pi sections, compared at its terminal(s).
+
+    The healthy phases' voltages and currents along the line follow from each terminal's
+    power-frequency terms (``v_j(s) = v_j(0) − s·a_j + s²/2·b_j``, ``i_j(s) = i_j(0) −
+    s·(c·dv/dt)_j``; with both terminals, weighted by distance); they give each node's
+    coupling charge and each section's induced voltage. The model's terminal voltage (the
+    mean of both ends with two records) is compared with the measured one.
+    """
+
+    def __init__(self, inp: IndirectInputs, opt: IndirectFitOptions, prior: ArcParameters):
+        super().__init__(inp, opt, prior)
+        line = inp.line
+        length = float(line.length_m)
+        nb = max(opt.min_sections, math.ceil(length / opt.section_m))
+        self.nb = nb
+        dlen = length / nb
+        k = inp.circuit.phase_idx
+        others = [j for j in range(3) if j != k]
+        c = np.asarray(line.constants.c_f_per_m, dtype=float)
+        i0, i1 = int(self.idx[0]), int(self.idx[-1]) + 1
+        t_rec = inp.t_s[i0:i1]
+        s_nodes = np.arange(nb + 1) * dlen
+        s_mid = (np.arange(nb) + 0.5) * dlen
+        w_node = np.ones(nb + 1)
+        w_node[0] = w_node[-1] = 0.5
+        terms = inp.terms
+
+        def healthy_v(tr: dict[str, np.ndarray], s_m: np.ndarray) -> np.ndarray:
+            # (len(s), 2, n): v_j(s) for the two healthy phases, from one terminal
+            a_t, b_t, v_t = tr["a"][others, i0:i1], tr["b"][others, i0:i1], tr["v"][others, i0:i1]
+            return (
+                v_t[None] - s_m[:, None, None] * a_t[None]
+                + 0.5 * s_m[:, None, None] ** 2 * b_t[None]
+            )  # fmt: skip
+
+        def emf(tr: dict[str, np.ndarray], s_m: np.ndarray, sign: float) -> np.ndarray:
+            a_h = tr["a"][k, i0:i1] - tr["a_own"][k, i0:i1]
+            b_h = tr["b"][k, i0:i1] - tr["b_own"][k, i0:i1]
+            return sign * (a_h[None] - s_m[:, None] * b_h[None]) * dlen
+
+        vh = healthy_v(terms[0], s_nodes)
+        em = emf(terms[0], s_mid, 1.0)
+        if len(terms) > 1:
+            wr_n = (s_nodes / length)[:, None, None]
+            vh = (1.0 - wr_n) * vh + wr_n * healthy_v(terms[1], length - s_nodes)
+            wr_b = (s_mid / length)[:, None]
+            em = (1.0 - wr_b) * em + wr_b * emf(terms[1], length - s_mid, -1.0)
+        b_nodes = (w_node * dlen)[:, None] * (
+            c[k, others[0]] * vh[:, 0] + c[k, others[1]] * vh[:, 1]
+        )
+        tf = self.t_fine
+
+        def fine(x: np.ndarray) -> np.ndarray:
+            return np.vstack([np.interp(tf, t_rec, row) for row in x])
+
+        self.b_nodes = fine(b_nodes)
+        self.emf = fine(em)
+        h = np.zeros((nb + 1, t_rec.size))
+        lam_init = np.zeros(nb + 1)
+        circ = inp.circuit
+        for e_rec, tr in enumerate(terms):
+            e_line = inp.local_end_idx if e_rec == 0 else 1 - inp.local_end_idx
+            node = 0 if e_line == 0 else nb
+            gam = circ.gamma_ends_per_h[e_line]
+            lam = tr["lam"][:, i0:i1]
+            h[node] = gam[k, others[0]] * lam[others[0]] + gam[k, others[1]] * lam[others[1]]
+            lam_init[node] = float(lam[k, 0])
+        if len(terms) == 1 and circ.has_reactors:
+            # the far bank sees the far-end voltages estimated from the local terminal
+            e_line = 1 - inp.local_end_idx
+            node = 0 if e_line == 0 else nb
+            gam = circ.gamma_ends_per_h[e_line]
+            if np.any(gam != 0.0):
+                tr0 = terms[0]
+                v_far = tr0["v"] - length * tr0["a"] + 0.5 * length**2 * tr0["b"]
+                lam_far = reactor_flux(inp.t_s, v_far, t_leak_s=circ.t_leak_s,
+                                       t_ref_s=inp.inception_s)[:, i0:i1]  # fmt: skip
+                h[node] = (
+                    gam[k, others[0]] * lam_far[others[0]] + gam[k, others[1]] * lam_far[others[1]]
+                )
+                lam_init[node] = float(lam_far[k, 0])
+        self.h_nodes = fine(h)
+        self.lam_init = lam_init
+        self.arc_node = int(np.clip(round(inp.fault_distance_m / dlen), 0, nb))
+        v_loc = terms[0]["v_raw_k"][i0:i1]
+        if len(terms) > 1:
+            self.v_meas = 0.5 * (v_loc + terms[1]["v_raw_k"][i0:i1])
+        else:
+            self.v_meas = v_loc
+        self.v_init = np.full(nb + 1, float(np.median(self.v_meas[: max(self.sub, 4)])))
+        self.v_band = sosfiltfilt(self.sos, self.v_meas)
+        self.scale = float(np.sqrt(np.mean(self.v_band[self.burn] ** 2))) or 1.0
+        self.v_fault = inp.v_fault_v[i0:i1]
+
+    def run(self, ap: ArcParameters, law: Any, *, forced: bool) -> Any:
+        r = simulate_open_line(
+            self.t_fine, self.inp.line, self.inp.circuit, b_c=self.b_nodes, emf_v=self.emf,
+            h_a=self.h_nodes, arc_node=self.arc_node, params=ap, law=law,
+            t_elongation_s=self.t_el0, v_init_v=self.v_init, lam_init_vs=self.lam_init,
+            forced_burning=forced,
+        )  # fmt: skip
+        v = r.v_local_v if len(self.inp.terms) == 1 else 0.5 * (r.v_local_v + r.v_remote_v)
+        return _LineRun(v, r.v_arc_v, r.i_a, r.g_siemens, r.l_m, r.extinction_s)
 
 
 class _VoltageProblem:
@@ -692,7 +853,9 @@ def fit_indirect(
         raise FitError(f"unknown elongation law {opt.law!r}; use auto, {', '.join(_LAWS)}")
     pr = prior or ArcParameters()
     inp = prepare_indirect(record, line, analysis=analysis, remote=remote, options=opt)
-    model = _Model(inp, opt, pr)
+    if opt.circuit_model not in ("sections", "lumped"):
+        raise FitError(f"unknown circuit model {opt.circuit_model!r}; use sections or lumped")
+    model = _LineModel(inp, opt, pr) if opt.circuit_model == "sections" else _Model(inp, opt, pr)
     if model.burn.sum() < 20:
         raise FitError(f"{inp.source}: too few samples in the burning period to fit")
     flags: list[str] = list(inp.notes)
@@ -841,7 +1004,12 @@ def _finish(
     i_est = estimate_arc_current(inp.t_s, inp.v_mean_v, inp.circuit, t_ref_s=inp.inception_s)[
         model.idx
     ]
-    u_meas = model.v_meas - induced
+    if isinstance(model, _LineModel):
+        # figures show the fault point: the drop-corrected measurement and the model's arc
+        u_meas = model.v_fault
+        v_fit = np.asarray(free.v_arc_v)[:: model.sub]
+    else:
+        u_meas = model.v_meas - induced
     with np.errstate(divide="ignore", invalid="ignore"):
         g_meas = np.where(np.abs(u_meas) > 0.05 * model.scale, i_est / u_meas, np.nan)
         g_meas = np.where(g_meas > 0, g_meas, np.nan)
