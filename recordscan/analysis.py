@@ -90,8 +90,9 @@ class ScanOptions:
         Harmonic-ratio thresholds of the arc signature.
     level_min : float
         Recovered open-phase voltage below this fraction of the healthy phases is flagged.
-    weak_margin : float
-        Weak arc signature above the recovered floor
+    weak_margin, weak_tail : float
+        Weak arc signature above the recovered floor, and the harmonic ratio at the end of
+        the observation that means the arc still burns
         (:func:`recordscan.detect.secondary_arc.detect_extinction`).
     excursion_factor : float
         A recovery is ``|v|`` above this multiple of the local arc-voltage level.
@@ -118,6 +119,7 @@ class ScanOptions:
     h_off: float = 0.08
     level_min: float = 0.03
     weak_margin: float = 0.015
+    weak_tail: float = 0.06
     excursion_factor: float = 2.0
     min_recovery_cycles: float = 0.2
     max_stagger_s: float = 0.3
@@ -705,6 +707,7 @@ def analyse(
             trace=tr,
             refine_record=full if full is not record else None,
             weak_margin=opts.weak_margin,
+            weak_tail=opts.weak_tail,
         )
         warns += list(ext.warnings)
         if ext.extinction_s is not None:

@@ -404,6 +404,7 @@ def detect_extinction(
     trace: ArcTrace | None = None,
     refine_record: Record | None = None,
     weak_margin: float = 0.015,
+    weak_tail: float = 0.06,
 ) -> ExtinctionResult:
     """Find the final extinction of the secondary arc on ``phase``.
 
@@ -430,6 +431,10 @@ def detect_extinction(
         cycles,
         the floor being the median ``H`` of the last two cycles observed (a clean recovery).
         Catches arcs whose voltage is swamped by a sinusoid induced along the open phase.
+    weak_tail : float
+        If the harmonic ratio over the last three cycles observed is at least this, the arc
+        still burns (weakly) at the end of the observation: censored. A recovered phase
+        settles near 0 once its switching transient has died out.
     refine_record : Record, optional
         The same record at its full sample rate when ``record`` was block-averaged
         (:func:`recordscan.detect._base.decimate_record`): the instant is then refined on
@@ -494,6 +499,23 @@ def detect_extinction(
         )
     warns: list[str] = []
     v = np.nan_to_num(q.values(role))
+    n_tail = int(3 * n)
+    valid_idx = np.flatnonzero(valid)
+    if valid_idx.size > 2 * n_tail:
+        h_tail = finite_median(tr.hratio[valid_idx[-n_tail:]])
+        if h_tail >= weak_tail:
+            return ExtinctionResult(
+                None,
+                True,
+                observed,
+                arc_start_s,
+                intervals,
+                tr.arc_amplitude_v,
+                (
+                    f"a weak arc signature (harmonic ratio {h_tail:.2f}) persists to the end "
+                    "of the observation: the arc is taken as still burning",
+                ),
+            )
     if s.size == 0:
         lvl = tr.level_pu[valid]
         if lvl.size and finite_median(lvl) < level_min:
