@@ -221,6 +221,53 @@ class Analysis:
 
     Every instant is seconds from the record's first sample. Attributes not applicable to
     the event are None (or empty).
+
+    Attributes
+    ----------
+    record : Record
+        The record analysed (full rate, as given).
+    classification : Classification
+        ``event`` kind, plain ``detail``, faulted phase, opened phases, confidence.
+    prefault : PrefaultState or None
+        Frequency, phasors, sequence magnitudes and load before the fault.
+    inception : Event or None
+        Fault inception.
+    selection : FaultSelection or None
+        Faulted phases, ground involvement, evolution.
+    trip : Event or None
+        First trip command (digital channels).
+    openings : Mapping[str, PoleOpening]
+        First opening of each pole at this terminal after inception.
+    remote_pole_open : Event or None
+        Far-end opening of the faulted phase (paired record or inferred).
+    remote_pole_open_source : str or None
+        ``"paired record"`` or ``"inferred"``.
+    secondary_arc_start_s : float or None
+        Later of the two openings of the faulted phase.
+    restrikes : tuple of Event
+        Restrikes before the final extinction.
+    extinction : ExtinctionResult or None
+        Final extinction (or censoring) with the burning stretches.
+    recovery : RecoveryVoltage or None
+        Recovery voltage after the final extinction.
+    location : FaultLocation or None
+        Fault location (with a line description).
+    triage : Triage or None
+        Currents, ratio, dead time and the deionisation rules of thumb.
+    reclose : RecloseResult or None
+        Reclose, outcome, three-pole trip, dead time.
+    pairing : Pairing or None
+        Alignment with the remote record.
+    line_name : str or None
+        Line description's name.
+    voltage_kv : float or None
+        Line voltage class.
+    frequency_hz : float
+        Frequency of the DFT windows.
+    warnings : tuple of str
+        Degraded evidence and assumptions.
+    confidence : float
+        Overall confidence (geometric mean of the chain's confidences).
     """
 
     record: Record = field(repr=False, compare=False)
