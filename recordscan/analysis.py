@@ -12,7 +12,6 @@ fault inception seen by both).
 
 from __future__ import annotations
 
-import dataclasses
 import datetime as _dt
 from collections.abc import Mapping
 from dataclasses import dataclass, field
@@ -24,7 +23,7 @@ import numpy as np
 
 from recordscan.core.events import Event
 from recordscan.core.record import Record
-from recordscan.core.roles import ARC_CURRENT, I_LINE, POLE_CLOSED, V_LINE
+from recordscan.core.roles import ARC_CURRENT
 from recordscan.detect._base import Quantities, decimate_record, where
 from recordscan.detect.classify import Classification, classify_event, fault_current_rms
 from recordscan.detect.inception import (
@@ -40,10 +39,10 @@ from recordscan.detect.pole_opening import (
     detect_pole_openings,
     detect_trip,
     infer_remote_opening,
-    zero_crossing,
 )
 from recordscan.detect.reclose import RecloseResult, detect_reclose
 from recordscan.detect.recovery import RecoveryVoltage, measure_recovery_voltage
+from recordscan.detect.refine import refine_inception, refine_opening, refine_restrike
 from recordscan.detect.restrike import detect_restrikes
 from recordscan.detect.secondary_arc import (
     ExtinctionResult,
@@ -53,9 +52,6 @@ from recordscan.detect.secondary_arc import (
 )
 from recordscan.detect.triage import Triage, triage
 from recordscan.errors import DetectionError, RecordScanError
-from recordscan.signal.charfunc import robust_scale
-from recordscan.signal.onset import last_crossing_before
-from recordscan.signal.sequence import superimposed
 
 if TYPE_CHECKING:  # pragma: no cover
     from recordscan.physics.line import LineDescription
@@ -594,8 +590,8 @@ def analyse(
             voltage_kv=kv,
         )
         if full is not record:
-            inc = _refine_inception(full, inc)
-            openings = {k: _refine_opening(full, o) for k, o in openings.items()}
+            inc = refine_inception(full, inc)
+            openings = {k: refine_opening(full, o) for k, o in openings.items()}
         return Analysis(
             classification=cls,
             prefault=pre,
@@ -788,9 +784,9 @@ def analyse(
         voltage_kv=kv,
     )
     if full is not record:
-        inc = _refine_inception(full, inc)
-        openings = {k: _refine_opening(full, o) for k, o in openings.items()}
-        restrikes = [_refine_restrike(full, e) for e in restrikes]
+        inc = refine_inception(full, inc)
+        openings = {k: refine_opening(full, o) for k, o in openings.items()}
+        restrikes = [refine_restrike(full, e) for e in restrikes]
     confs = [cls.confidence, inc.confidence, local.event.confidence]
     if ext is not None and ext.extinction is not None:
         confs.append(ext.extinction.confidence)
@@ -817,99 +813,6 @@ def analyse(
         confidence=float(np.prod(confs) ** (1.0 / len(confs))),
         **common,
     )
-
-
-def _refine_inception(full: Record, inc: Event) -> Event:
-    """Walk the inception back to where the full-rate delta left its noise band."""
-    ch = full.analog_by_role(str(inc.params.get("role", "")))
-    if ch is None:
-        return inc
-    t = full.t_s
-    cyc = 1.0 / full.frequency_hz
-    k = int(np.searchsorted(t, inc.t_s))
-    seg = next((s for s in full.segments if s.start_idx <= k < s.stop_idx), None)
-    if seg is None or seg.rate_hz <= 0:
-        return inc
-    n = seg.rate_hz * cyc
-    lo = max(seg.start_idx, k - int(3 * n))
-    hi = min(seg.stop_idx, k + int(0.5 * n))
-    if k - lo < 2.5 * n:
-        return inc
-    d = superimposed(np.nan_to_num(ch.values[lo:hi]), length=n)
-    base = d[int(np.ceil(n)) + 1 : int(np.ceil(2 * n))]
-    sigma = robust_scale(base)
-    jump = np.abs(d[k - lo - int(0.1 * n) :])
-    peak = float(np.max(jump)) if jump.size else 0.0
-    thr = max(8.0 * sigma, 0.3 * peak)
-    over = np.flatnonzero(jump > thr)
-    if over.size == 0:
-        return inc
-    cross = k - lo - int(0.1 * n) + int(over[0])
-    onset = last_crossing_before(np.abs(d), cross, level=max(3.0 * sigma, 1e-12))
-    t_new = float(t[lo + onset])
-    if abs(t_new - inc.t_s) > 0.1 * cyc:
-        return inc
-    return dataclasses.replace(inc, t_s=t_new, uncertainty_s=1.0 / seg.rate_hz)
-
-
-def _refine_opening(full: Record, op: PoleOpening) -> PoleOpening:
-    """Re-find a current-zero opening on the full-rate samples (block averages blur it)."""
-    if op.source != "current_zero":
-        return op
-    ch = full.analog_by_role(I_LINE[op.phase])
-    thr = op.event.evidence.quantities.get("threshold_a")
-    if ch is None or thr is None:
-        return op
-    t = full.t_s
-    cyc = 1.0 / full.frequency_hz
-    lo = int(np.searchsorted(t, op.t_s - 0.5 * cyc))
-    hi = int(np.searchsorted(t, op.t_s + 0.75 * cyc))
-    above = np.flatnonzero(np.abs(np.nan_to_num(ch.values[lo:hi])) >= thr)
-    if above.size == 0 or lo + above[-1] + 1 >= hi:
-        return op
-    k = lo + int(above[-1]) + 1
-    seg = next((s for s in full.segments if s.start_idx <= k < s.stop_idx), None)
-    if seg is None or seg.rate_hz <= 0:
-        return op
-    t_new = zero_crossing(t, ch.values, k, seg.rate_hz * cyc)
-    if abs(t_new - op.t_s) > 0.25 * cyc:
-        return op
-    t_dig = op.digital_t_s
-    st = full.digital_by_role(POLE_CLOSED[op.phase])
-    if t_dig is not None and st is not None:  # the status edge at full rate too
-        a = int(np.searchsorted(t, t_dig - 0.25 * cyc))
-        b = int(np.searchsorted(t, t_dig + 0.25 * cyc))
-        edges = np.flatnonzero(np.diff(np.asarray(st.values[a:b], dtype=np.int8)) == -1)
-        if edges.size:
-            t_dig = float(t[a + edges[0] + 1])
-    lag = None if t_dig is None or op.aux_lag_s is None else t_dig - t_new
-    q = dict(op.event.evidence.quantities)
-    q["aux_lag_s"] = lag
-    ev = dataclasses.replace(
-        op.event,
-        t_s=t_new,
-        uncertainty_s=1.0 / seg.rate_hz,
-        evidence=dataclasses.replace(op.event.evidence, quantities=q),
-    )
-    return dataclasses.replace(op, event=ev, digital_t_s=t_dig, aux_lag_s=lag)
-
-
-def _refine_restrike(full: Record, ev: Event) -> Event:
-    """Place a restrike on the largest full-rate collapse of ``|v|`` near it."""
-    ch = full.analog_by_role(V_LINE[ev.phase or "A"])
-    if ch is None:
-        return ev
-    t = full.t_s
-    cyc = 1.0 / full.frequency_hz
-    lo = int(np.searchsorted(t, ev.t_s - 0.06 * cyc))
-    hi = int(np.searchsorted(t, ev.t_s + 0.06 * cyc))
-    if hi - lo < 3:
-        return ev
-    av = np.abs(np.nan_to_num(ch.values[lo:hi]))
-    j = int(np.argmax(av[:-1] - av[1:]))
-    k = lo + j + 1
-    dt = float(t[k] - t[k - 1])
-    return dataclasses.replace(ev, t_s=float(t[k]) - 0.5 * dt, uncertainty_s=dt)
 
 
 def _arc_current(
