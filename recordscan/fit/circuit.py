@@ -710,6 +710,7 @@ def simulate_open_line(
     lam_init_vs: np.ndarray,
     g0_siemens: float | None = None,
     forced_burning: bool = False,
+    s_nodes_m: np.ndarray | None = None,
 ) -> OpenLineResponse:
     """Simulate the open conductor as ``N`` pi sections with the arc at one node.
 
@@ -722,8 +723,8 @@ def simulate_open_line(
     circuit : OpenPhaseCircuit
         Open phase and reactor banks.
     b_c : numpy.ndarray
-        (N+1, n) healthy phases' share of each node's charge ``w·Δ·Σ_{j≠k} c_kj·v_j(s)``
-        [C] (``w`` = ½ at the end nodes).
+        (N+1, n) healthy phases' share of each node's charge ``Δ_n·Σ_{j≠k} c_kj·v_j(s_n)``
+        [C] (``Δ_n`` half the length of the sections either side of the node).
     emf_v : numpy.ndarray
         (N, n) voltage induced in each section by the healthy phases' currents [V].
     h_a : numpy.ndarray
@@ -739,6 +740,9 @@ def simulate_open_line(
         Arc conductance at the first instant (default: carries 30 A at ``u0·l``).
     forced_burning : bool
         Suppress the extinction test.
+    s_nodes_m : numpy.ndarray, optional
+        (N+1,) node positions from the local end [m] (default: equal sections); a node at
+        the fault keeps the arc where it is.
 
     Returns
     -------
@@ -749,16 +753,21 @@ def simulate_open_line(
     k = circuit.phase_idx
     nn = b_c.shape[0]
     nb = nn - 1
-    dlen = float(line.length_m) / nb
+    if s_nodes_m is None:
+        s_nodes_m = np.linspace(0.0, float(line.length_m), nn)
+    seg = np.diff(np.asarray(s_nodes_m, dtype=float))
+    if seg.size != nb or np.any(seg <= 0.0):
+        raise FitError("section nodes must be increasing, one more than the sections")
+    node_len = np.zeros(nn)
+    node_len[:-1] += 0.5 * seg
+    node_len[1:] += 0.5 * seg
     cst = line.constants
-    c_kk = float(np.asarray(cst.c_f_per_m)[k, k]) * dlen
-    cap = np.full(nn, c_kk)
-    cap[0] = cap[-1] = 0.5 * c_kk
-    r_b = float(np.asarray(cst.r_ohm_per_m)[k, k]) * dlen
-    l_b = float(np.asarray(cst.l_h_per_m)[k, k]) * dlen
+    cap = float(np.asarray(cst.c_f_per_m)[k, k]) * node_len
+    r_b = float(np.asarray(cst.r_ohm_per_m)[k, k]) * seg
+    l_b = float(np.asarray(cst.l_h_per_m)[k, k]) * seg
     den = l_b + 0.5 * dt * r_b
-    alpha_b = np.full(nb, 0.5 * dt / den)
-    beta_b = np.full(nb, (l_b - 0.5 * dt * r_b) / den)
+    alpha_b = 0.5 * dt / den
+    beta_b = (l_b - 0.5 * dt * r_b) / den
     g_end = np.zeros(nn)
     g_end[0] = float(circuit.gamma_ends_per_h[0][k, k])
     g_end[-1] = float(circuit.gamma_ends_per_h[1][k, k])

@@ -203,18 +203,29 @@ class _LineModel(_Model):
         super().__init__(inp, opt, prior)
         line = inp.line
         length = float(line.length_m)
-        nb = max(opt.min_sections, math.ceil(length / opt.section_m))
+        # sections of at most section_m on either side of the fault, a node at the fault
+        x = float(np.clip(inp.fault_distance_m, 0.0, length))
+        n_tot = max(opt.min_sections, math.ceil(length / opt.section_m))
+        n1 = round(n_tot * x / length)
+        n1 = max(n1, math.ceil(x / opt.section_m)) if x > 1.0 else 0
+        n2 = max(math.ceil((length - x) / opt.section_m), n_tot - n1) if length - x > 1.0 else 0
+        parts = [np.linspace(0.0, x, n1 + 1)] if n1 else [np.zeros(1)]
+        if n2:
+            parts.append(np.linspace(x, length, n2 + 1)[1:])
+        s_nodes = np.concatenate(parts)
+        nb = s_nodes.size - 1
         self.nb = nb
-        dlen = length / nb
+        self.s_nodes = s_nodes
+        seg = np.diff(s_nodes)
         k = inp.circuit.phase_idx
         others = [j for j in range(3) if j != k]
         c = np.asarray(line.constants.c_f_per_m, dtype=float)
         i0, i1 = int(self.idx[0]), int(self.idx[-1]) + 1
         t_rec = inp.t_s[i0:i1]
-        s_nodes = np.arange(nb + 1) * dlen
-        s_mid = (np.arange(nb) + 0.5) * dlen
-        w_node = np.ones(nb + 1)
-        w_node[0] = w_node[-1] = 0.5
+        s_mid = 0.5 * (s_nodes[:-1] + s_nodes[1:])
+        node_len = np.zeros(nb + 1)
+        node_len[:-1] += 0.5 * seg
+        node_len[1:] += 0.5 * seg
         terms = inp.terms
 
         def healthy_v(tr: dict[str, np.ndarray], s_m: np.ndarray) -> np.ndarray:
@@ -228,7 +239,7 @@ class _LineModel(_Model):
         def emf(tr: dict[str, np.ndarray], s_m: np.ndarray, sign: float) -> np.ndarray:
             a_h = tr["a"][k, i0:i1] - tr["a_own"][k, i0:i1]
             b_h = tr["b"][k, i0:i1] - tr["b_own"][k, i0:i1]
-            return sign * (a_h[None] - s_m[:, None] * b_h[None]) * dlen
+            return sign * (a_h[None] - s_m[:, None] * b_h[None]) * seg[:, None]
 
         vh = healthy_v(terms[0], s_nodes)
         em = emf(terms[0], s_mid, 1.0)
@@ -237,9 +248,7 @@ class _LineModel(_Model):
             vh = (1.0 - wr_n) * vh + wr_n * healthy_v(terms[1], length - s_nodes)
             wr_b = (s_mid / length)[:, None]
             em = (1.0 - wr_b) * em + wr_b * emf(terms[1], length - s_mid, -1.0)
-        b_nodes = (w_node * dlen)[:, None] * (
-            c[k, others[0]] * vh[:, 0] + c[k, others[1]] * vh[:, 1]
-        )
+        b_nodes = node_len[:, None] * (c[k, others[0]] * vh[:, 0] + c[k, others[1]] * vh[:, 1])
         tf = self.t_fine
 
         def fine(x: np.ndarray) -> np.ndarray:
@@ -273,7 +282,7 @@ class _LineModel(_Model):
                 lam_init[node] = float(lam_far[k, 0])
         self.h_nodes = fine(h)
         self.lam_init = lam_init
-        self.arc_node = int(np.clip(round(inp.fault_distance_m / dlen), 0, nb))
+        self.arc_node = int(np.argmin(np.abs(s_nodes - x)))
         v_loc = terms[0]["v_raw_k"][i0:i1]
         if len(terms) > 1:
             self.v_meas = 0.5 * (v_loc + terms[1]["v_raw_k"][i0:i1])
@@ -289,7 +298,7 @@ class _LineModel(_Model):
             self.t_fine, self.inp.line, self.inp.circuit, b_c=self.b_nodes, emf_v=self.emf,
             h_a=self.h_nodes, arc_node=self.arc_node, params=ap, law=law,
             t_elongation_s=self.t_el0, v_init_v=self.v_init, lam_init_vs=self.lam_init,
-            forced_burning=forced,
+            forced_burning=forced, s_nodes_m=self.s_nodes,
         )  # fmt: skip
         v = r.v_local_v if len(self.inp.terms) == 1 else 0.5 * (r.v_local_v + r.v_remote_v)
         return _LineRun(v, r.v_arc_v, r.i_a, r.g_siemens, r.l_m, r.extinction_s)
