@@ -593,7 +593,7 @@ def _finish(
         names.append("alpha")
         flags.append(
             "α set by the measured final extinction (one instant; it also absorbs what the "
-            "lumped circuit misses of the current near its zeros): weakly determined"
+            "circuit misses of the current near its zeros): weakly determined"
         )
     est["l0_m"] = ParameterEstimate("l0_m", pr.l0_m, None, PRIOR, True)
     flags.append(
