@@ -751,6 +751,7 @@ def analyse(
             refine_record=full if full is not record else None,
             weak_margin=opts.weak_margin,
             weak_tail=opts.weak_tail,
+            beat_check=ld is not None and ld.compensation > 0,
         )
         warns += list(ext.warnings)
         if ext.extinction_s is not None:

@@ -38,6 +38,7 @@ from recordscan.core.roles import ARC_CURRENT, PHASES, V_LINE
 from recordscan.detect._base import Quantities, finite_median, where
 from recordscan.errors import DetectionError
 from recordscan.signal.charfunc import robust_scale, step_score
+from recordscan.signal.filters import running_max
 from recordscan.signal.onset import hysteresis_state, runs
 
 __all__ = [
@@ -250,6 +251,51 @@ def _with_weak_signature(tr: ArcTrace, *, weak_margin: float) -> ArcTrace:
     return dataclasses.replace(tr, burning=tr.burning | weak)
 
 
+def _beat_onset(
+    q: Quantities, phase: str, *, lo: int, hi: int, n: float, thr: float = 0.12
+) -> int | None:
+    """Start of the open phase's final free (beating) oscillation, or None.
+
+    While the arc burns the open-phase voltage is forced: its phasor relative to
+    ``−(sum of the healthy-phase voltages)`` keeps a steady angle and size. Once extinct, a
+    compensated line's open phase rings at its own frequency and the ratio rotates and
+    breathes at the beat frequency. The change per cycle of ``log`` of that ratio (angle and
+    log-magnitude) above ``thr``, bridged over five cycles, must last to the end.
+    """
+    others = [p for p in ("A", "B", "C") if p != phase]
+    if any(q.values(V_LINE[p]) is None for p in (phase, *others)):
+        return None
+    lag = max(1, round(n))
+    if hi - lo < 6 * lag:
+        return None
+    v = q.phasor(V_LINE[phase])[lo:hi]
+    ref = -(q.phasor(V_LINE[others[0]])[lo:hi] + q.phasor(V_LINE[others[1]])[lo:hi])
+    with np.errstate(invalid="ignore", divide="ignore"):
+        z = np.log(v / ref)
+    ok = np.isfinite(z)
+    if ok.sum() < 6 * lag:
+        return None
+    z = np.where(ok, z, 0.0)
+    ang = np.unwrap(z.imag)
+    w = z.real + 1j * ang
+    c = np.zeros(w.shape[0])
+    c[lag:] = np.abs(w[lag:] - w[:-lag])
+    c[~ok] = 0.0
+    active = running_max((c > thr).astype(np.float64), int(5 * lag)) > 0
+    if not active[-1]:
+        return None
+    idle = np.flatnonzero(~active)
+    if idle.size == 0:
+        return None
+    start = int(idle[-1]) + 1
+    # walk back to where the one-cycle change left the forced (arc) level
+    before = c[max(start - 5 * lag, lag) : max(start - lag, lag + 1)]
+    base = float(np.median(before)) if before.size else 0.0
+    quiet = np.flatnonzero(c[: start + 1] <= max(2.0 * base, thr / 4))
+    onset = int(quiet[-1]) + 1 if quiet.size else start
+    return lo + max(min(onset, start), 0)
+
+
 def _last_level_step(
     tr: ArcTrace, k_f: int, n: float, *, floor_idx: int, rel: float = 0.1, span: float = 10.0
 ) -> int | None:
@@ -405,6 +451,7 @@ def detect_extinction(
     refine_record: Record | None = None,
     weak_margin: float = 0.015,
     weak_tail: float = 0.06,
+    beat_check: bool = False,
 ) -> ExtinctionResult:
     """Find the final extinction of the secondary arc on ``phase``.
 
@@ -435,6 +482,10 @@ def detect_extinction(
         If the harmonic ratio over the last three cycles observed is at least this, the arc
         still burns (weakly) at the end of the observation: censored. A recovered phase
         settles near 0 once its switching transient has died out.
+    beat_check : bool
+        The line is shunt-compensated: also look for the onset of the open phase's free
+        oscillation (its voltage phasor stops being locked to the healthy phases and beats),
+        and take it when it is more than two cycles away from the harmonic-signature instant.
     refine_record : Record, optional
         The same record at its full sample rate when ``record`` was block-averaged
         (:func:`recordscan.detect._base.decimate_record`): the instant is then refined on
@@ -586,6 +637,14 @@ def detect_extinction(
         gap_lo = float(t[seg_lo - 1]) if seg_lo > 0 else float(t[0])
         unc = max(unc, float(t[seg_lo]) - gap_lo)
         warns.append("extinction fell in a gap of the record; its instant is bounded by the gap")
+    if beat_check:
+        k_beat = _beat_onset(q, phase, lo=max(a + int(n), lo), hi=b, n=n)
+        if k_beat is not None and abs(k_beat - k_ext) > 2 * n:
+            # on a shunt-compensated line the open phase rings at its own frequency once the
+            # arc is out: where that beat begins is the better evidence
+            k_ext = k_beat
+            unc = 0.5 * q.cycle_s
+            method = "onset of the free oscillation (beat) of the open phase"
     t_ext = float(t[k_ext]) - 0.5 * dt
     if refine_record is not None and ref is not None:
         fine = _refine_full_rate(
