@@ -1,7 +1,8 @@
 """Fault location against a derived circuit: two sources, a line, a phase-A-to-ground fault
 through a resistance, with load flow — solved exactly with the sequence networks
 (Fortescue 1918; the series connection of the three sequence networks for a single-line-to-
-ground fault, e.g. Grainger & Stevenson, *Power System Analysis*, 1994, §12)."""
+ground fault, e.g. Grainger & Stevenson, *Power System Analysis*, 1994 — chapter from
+memory)."""
 
 from __future__ import annotations
 
@@ -57,8 +58,9 @@ def _slg(m: float, rf: float, *, homogeneous: bool, delta_deg: float = 15.0) -> 
 @pytest.mark.parametrize("m", [0.1, 0.35, 0.8])
 @pytest.mark.parametrize("rf", [0.0, 10.0, 50.0])
 def test_takagi_exact_in_homogeneous_system(m: float, rf: float) -> None:
-    # Takagi et al. 1982: with the superimposed current in phase with the fault current
-    # (homogeneous system) the reactance method is exact despite load flow and RF (derived).
+    # Takagi et al., IEEE Trans. PAS 1982 (volume from memory): with the superimposed current
+    # in phase with the fault current (homogeneous system) the reactance method is exact
+    # despite load flow and RF (derived).
     c = _slg(m, rf, homogeneous=True)
     got = takagi_distance_pu(c["va"], c["ia"], c["ir"], c["dia"], z1_ohm=c["z1l"], z0_ohm=c["z0l"])
     assert float(got) == pytest.approx(m, abs=1e-9)
@@ -75,8 +77,9 @@ def test_takagi_error_small_in_nonhomogeneous_system() -> None:
 
 @pytest.mark.parametrize("m", [0.2, 0.5, 0.9])
 def test_two_ended_negative_sequence_exact(m: float) -> None:
-    # Novosel et al. 1996: |V2S − m·Z2·I2S| = |V2R − (1 − m)·Z2·I2R| holds exactly (derived),
-    # independent of the phase reference of either end.
+    # Novosel et al., IEEE Trans. Power Delivery 1996 (from memory):
+    # |V2S − m·Z2·I2S| = |V2R − (1 − m)·Z2·I2R| holds exactly (derived), independent of the
+    # phase reference of either end.
     c = _slg(m, 30.0, homogeneous=False)
     rot = np.exp(1j * 0.7)  # the remote record's own (unsynchronised) phase reference
     got = two_ended_distance_pu(c["v2s"], c["i2s"], c["v2r"] * rot, c["i2r"] * rot, z2_ohm=c["z1l"])

@@ -59,6 +59,6 @@ def test_sta_lta_and_step_score() -> None:
     assert r[520] == pytest.approx(10 / ((179 + 21 * 10) / 200))  # direct means
     sc = step_score(np.concatenate([np.zeros(50), 2 * np.ones(50)]), n=10)
     assert int(np.nanargmax(sc)) == 50 and np.nanmax(sc) == pytest.approx(2.0)
-    # 1.4826·MAD estimates σ of Gaussian noise (Rousseeuw & Croux 1993)
+    # 1.4826·MAD estimates σ of Gaussian noise (derived: 1/Φ⁻¹(3/4); Rousseeuw & Croux 1993)
     g = np.random.default_rng(1).normal(scale=3.0, size=200000)
     assert robust_scale(g) == pytest.approx(3.0, rel=0.01)

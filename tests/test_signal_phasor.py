@@ -17,7 +17,7 @@ from recordscan.signal.phasor import (
 
 
 def _tve(est: np.ndarray, ref: complex) -> np.ndarray:
-    """Total vector error, IEC/IEEE 60255-118-1:2018 (definition of TVE, clause 3/5.3.2)."""
+    """Total vector error as defined in IEC/IEEE 60255-118-1:2018 (clause number from memory)."""
     return np.abs(est - ref) / abs(ref)
 
 

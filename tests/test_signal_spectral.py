@@ -17,7 +17,7 @@ def _square(n_per_cycle: int, n_cycles: int) -> np.ndarray:
 
 
 def test_square_wave_thd_48_34_percent() -> None:
-    # Derived (Fourier series of a square wave, e.g. Oppenheim & Willsky 1997 §3.3):
+    # Derived (Fourier series of a square wave; e.g. Oppenheim & Willsky 1997, from memory):
     # THD = sqrt(π²/8 − 1) = 48.34 %.
     assert SQUARE_THD == pytest.approx(0.4834, abs=5e-5)
     x = _square(2000, 3)

@@ -3,7 +3,8 @@
 The arc voltage of a burning secondary arc is square-wave-like: an ideal square wave has odd
 harmonics of amplitude 1/k of the fundamental and a total harmonic distortion of
 ``sqrt(π²/8 − 1) = 48.34 %`` (derived from its Fourier series, e.g. Oppenheim & Willsky,
-*Signals and Systems*, 2nd ed., 1997, §3.3). A recovery voltage is nearly sinusoidal.
+*Signals and Systems*, 2nd ed., 1997 — section from memory). A recovery voltage is nearly
+sinusoidal.
 """
 
 from __future__ import annotations
