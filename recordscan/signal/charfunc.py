@@ -3,8 +3,8 @@
 A detector computes a characteristic function from the raw samples, then applies a decision
 rule (:mod:`recordscan.signal.onset`). The short-term/long-term average ratio is the classic
 seismic trigger (Allen, "Automatic earthquake recognition and timing from single traces",
-BSSA 68(5), 1978); the robust scale is the normalised median absolute deviation
-(Rousseeuw & Croux, JASA 88, 1993: 1.4826·MAD estimates σ for Gaussian noise).
+BSSA 68(5), 1978 — from memory); the robust scale is the normalised median absolute deviation
+(Rousseeuw & Croux, JASA 88, 1993 — from memory: 1.4826·MAD estimates σ for Gaussian noise).
 """
 
 from __future__ import annotations
