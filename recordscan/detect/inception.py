@@ -2,11 +2,10 @@
 
 The superimposed quantity ``Δx(t) = x(t) − x(t − T)`` is zero in steady state and equals the
 change a fault causes during the first cycle after it (the incremental-quantity principle of
-superimposed-component relaying; e.g. Phadke & Thorp, *Computer Relaying for Power
-Systems*, 2nd ed., 2009 — chapter from memory). Inception is the first sample where the delta of
-any phase
-current or voltage leaves its noise band by a margin and stays out for a short hold, walked
-back to where it left the band.
+superimposed-component relaying; e.g. Phadke & Thorp, *Computer Relaying for Power Systems*, 2nd
+ed., 2009 — chapter from memory). Inception is the first sample where the delta of any phase
+current or voltage leaves its noise band by a margin and stays out for a short hold, walked back
+to where it left the band.
 """
 
 from __future__ import annotations

@@ -1,19 +1,17 @@
 """Fault location along the line.
 
-Single-ended: the Takagi method (Takagi, Yamakoshi, Yamaura, Kondow & Matsushima,
-"Development of a new type fault locator using the one-terminal voltage and current data",
-IEEE Trans. PAS 101(8), 1982 — volume and issue from memory). For a phase-p-to-ground fault at
-per-unit distance m,
-``V = m·Z1·(I + k0·IR) + RF·IF``; multiplying by the conjugate of the superimposed current
-ΔI (in phase with IF in a homogeneous system) and keeping the imaginary part removes RF:
-``m = Im(V·ΔI*) / Im(Z1·(I + k0·IR)·ΔI*)`` with ``k0 = (Z0 − Z1)/(3·Z1)`` and
-``IR = IA + IB + IC``. The load flow is removed by using ΔI instead of I.
+Single-ended: the Takagi method (Takagi, Yamakoshi, Yamaura, Kondow & Matsushima, "Development
+of a new type fault locator using the one-terminal voltage and current data", IEEE Trans. PAS
+101(8), 1982 — volume and issue from memory). For a phase-p-to-ground fault at per-unit distance
+m, ``V = m·Z1·(I + k0·IR) + RF·IF``; multiplying by the conjugate of the superimposed current ΔI
+(in phase with IF in a homogeneous system) and keeping the imaginary part removes RF: ``m =
+Im(V·ΔI*) / Im(Z1·(I + k0·IR)·ΔI*)`` with ``k0 = (Z0 − Z1)/(3·Z1)`` and ``IR = IA + IB + IC``.
+The load flow is removed by using ΔI instead of I.
 
 Two-ended: unsynchronised negative-sequence method (Novosel, Hart, Udren & Garitty,
-"Unsynchronized two-terminal fault location estimation", IEEE Trans. Power Delivery 11(1),
-1996 — from memory): ``|V2S − m·Z2·I2S| = |V2R − (1 − m)·Z2·I2R|`` — magnitudes only, so the two
-records
-need not share a phase reference; a quadratic in m.
+"Unsynchronized two-terminal fault location estimation", IEEE Trans. Power Delivery 11(1), 1996
+— from memory): ``|V2S − m·Z2·I2S| = |V2R − (1 − m)·Z2·I2R|`` — magnitudes only, so the two
+records need not share a phase reference; a quadratic in m.
 """
 
 from __future__ import annotations

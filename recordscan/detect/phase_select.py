@@ -1,11 +1,10 @@
 """Faulted-phase selection from superimposed phasors, and evolving faults.
 
-The superimposed (fault minus pre-fault) phase-to-phase current phasors separate the fault
-types (the classic delta-quantity phase selector; e.g. Phadke & Thorp, *Computer Relaying for
-Power Systems*, 2nd ed., 2009 — section from memory): for a phase-A-to-ground fault ΔI_B ≈ ΔI_C
-(both carry
-only the zero-sequence share), so |ΔI_BC| is small against |ΔI_AB| and |ΔI_CA|; a B–C fault
-makes |ΔI_BC| largest with the other two about half of it; a three-phase fault makes all
+The superimposed (fault minus pre-fault) phase-to-phase current phasors separate the fault types
+(the classic delta-quantity phase selector; e.g. Phadke & Thorp, *Computer Relaying for Power
+Systems*, 2nd ed., 2009 — section from memory): for a phase-A-to-ground fault ΔI_B ≈ ΔI_C (both
+carry only the zero-sequence share), so |ΔI_BC| is small against |ΔI_AB| and |ΔI_CA|; a B–C
+fault makes |ΔI_BC| largest with the other two about half of it; a three-phase fault makes all
 three equal. Without currents, the phase-voltage dips are used.
 """
 

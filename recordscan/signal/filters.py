@@ -18,11 +18,10 @@ __all__ = [
 def mimic_filter(x: np.ndarray, *, tau_s: float, fs_hz: float, f_hz: float) -> np.ndarray:
     """Remove a decaying DC offset with time constant ``tau_s`` (digital mimic filter).
 
-    ``y[n] = K·((1 + τ)·x[n] − τ·x[n−1])`` with ``τ = tau_s·fs_hz`` in samples and ``K``
-    chosen for unity gain at ``f_hz`` (Benmouyal, "Removal of DC-offset in current waveforms
-    using digital mimic filtering", IEEE Trans. Power Delivery 10(2), 1995 — from memory). An
-    exponential
-    ``exp(−t/tau_s)`` is cancelled to first order in the sample interval.
+    ``y[n] = K·((1 + τ)·x[n] − τ·x[n−1])`` with ``τ = tau_s·fs_hz`` in samples and ``K`` chosen
+    for unity gain at ``f_hz`` (Benmouyal, "Removal of DC-offset in current waveforms using
+    digital mimic filtering", IEEE Trans. Power Delivery 10(2), 1995 — from memory). An
+    exponential ``exp(−t/tau_s)`` is cancelled to first order in the sample interval.
 
     Parameters
     ----------
