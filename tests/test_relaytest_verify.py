@@ -32,24 +32,36 @@ from recordscan.relaytest.verify import (
 )
 
 
-def _truth(k: int, *, permanent: bool = False, restrikes: tuple[float, ...] = (),
-           ext: float | None = 0.45, f: float = 60.0) -> TruthCase:
+def _truth(
+    k: int,
+    *,
+    permanent: bool = False,
+    restrikes: tuple[float, ...] = (),
+    ext: float | None = 0.45,
+    f: float = 60.0,
+) -> TruthCase:
     return TruthCase(
-        case=f"case-{k:03d}", file=f"case-{k:03d}.cfg", frequency_hz=f, inception_s=0.1,
-        permanent=permanent, secondary_arc_start_s=0.16, restrike_s=restrikes,
-        extinction_s=None if permanent else ext, latest_permit_s=0.9,
+        case=f"case-{k:03d}",
+        file=f"case-{k:03d}.cfg",
+        frequency_hz=f,
+        inception_s=0.1,
+        permanent=permanent,
+        secondary_arc_start_s=0.16,
+        restrike_s=restrikes,
+        extinction_s=None if permanent else ext,
+        latest_permit_s=0.9,
     )
 
 
 def test_each_verdict_once() -> None:
     cases = [
-        _truth(1),                                   # correct permit, 20 ms latency
-        _truth(2, restrikes=(0.30, 0.38)),           # premature between restrikes
-        _truth(3),                                   # missed
-        _truth(4, permanent=True),                   # correct block
-        _truth(5, permanent=True),                   # premature on a permanent fault
-        _truth(6),                                   # no response
-        _truth(7, ext=1.2),                          # arc outlives the dead time: block
+        _truth(1),  # correct permit, 20 ms latency
+        _truth(2, restrikes=(0.30, 0.38)),  # premature between restrikes
+        _truth(3),  # missed
+        _truth(4, permanent=True),  # correct block
+        _truth(5, permanent=True),  # premature on a permanent fault
+        _truth(6),  # no response
+        _truth(7, ext=1.2),  # arc outlives the dead time: block
     ]
     responses = {
         "case-001": RelayResponse("case-001", ((0.47, None),)),
@@ -99,8 +111,9 @@ def test_guidance_states_derived_one_cycle_floor() -> None:
     offset=st.floats(-0.4, 0.4),
     seed=st.integers(0, 2**31 - 1),
 )
-def test_injected_relay_is_reported_exactly(lat_cycles: list[float], rate: float, offset: float,
-                                            seed: int) -> None:
+def test_injected_relay_is_reported_exactly(
+    lat_cycles: list[float], rate: float, offset: float, seed: int
+) -> None:
     """A synthetic relay record at its own rate and clock offset; injected faults recovered."""
     rng = np.random.default_rng(seed)
     f = 50.0
@@ -111,24 +124,29 @@ def test_injected_relay_is_reported_exactly(lat_cycles: list[float], rate: float
         cases.append(truth)
         # the relay's own record (own rate, own clock) covers the whole playback
         t_rel = np.arange(0.0, 2.5, 1.0 / rate)
-        shift = offset - 0.5                           # relay clock → playback time
+        shift = offset - 0.5  # relay clock → playback time
         t_play = t_rel + shift
         if kind == "ok":
             permit = t_play >= truth.extinction_s + lc / f
         elif kind == "premature":
-            permit = t_play >= 0.2                     # before restrike and extinction
+            permit = t_play >= 0.2  # before restrike and extinction
         else:
             permit = np.zeros_like(t_rel, dtype=bool)
         injected[truth.case] = (kind, lc)
-        rec = Record(t_s=t_rel, digital=(StatusChannel("PERMIT", permit, role="permit"),),
-                     frequency_hz=f)
+        rec = Record(
+            t_s=t_rel, digital=(StatusChannel("PERMIT", permit, role="permit"),), frequency_hz=f
+        )
         # the relay's inception on its own clock is the playback inception minus the shift
         records[truth.case] = response_from_record(
             rec, truth, detected_inception_s=truth.inception_s - shift
         )
     rep = verify(cases, records, limits=AcceptanceLimits(max_latency_cycles=10))
-    expect = {"ok": "correct_permit", "premature": "premature_permit", "miss": "missed_permit",
-              "block": "correct_block"}
+    expect = {
+        "ok": "correct_permit",
+        "premature": "premature_permit",
+        "miss": "missed_permit",
+        "block": "correct_block",
+    }
     for v in rep.verdicts:
         kind, lc = injected[v.case]
         assert v.verdict == expect[kind]
