@@ -17,6 +17,7 @@ and :attr:`Record.segments` lists the uniformly sampled pieces.
 from __future__ import annotations
 
 import dataclasses
+import hashlib
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
@@ -37,17 +38,22 @@ def _rate(dt: np.ndarray, first: int, last: int) -> float:
     return 1.0 / interval if interval > 0 else 0.0
 
 
+def _sealed(a: np.ndarray) -> bool:
+    """Read-only memory: an owning read-only array, or a read-only view of one."""
+    if a.flags.writeable:
+        return False
+    if a.flags.owndata:
+        return True
+    base = a.base
+    return isinstance(base, np.ndarray) and base.flags.owndata and not base.flags.writeable
+
+
 def _readonly(a: np.ndarray, dtype: type | np.dtype) -> np.ndarray:
-    # an array that is already read-only, of the right dtype and owns its memory cannot be
-    # changed by the caller without undoing that on purpose: keep it (readers hand over
-    # freshly decoded arrays this way and save a copy); anything else is copied
-    if (
-        isinstance(a, np.ndarray)
-        and a.dtype == dtype
-        and not a.flags.writeable
-        and a.flags.owndata
-        and a.flags.c_contiguous
-    ):
+    # an array that is already read-only, of the right dtype and owns its memory (or is a
+    # read-only view of a read-only array that does) cannot be changed by the caller without
+    # undoing that on purpose: keep it (readers hand over freshly decoded arrays, or rows of
+    # one decoded block, this way and save a copy); anything else is copied
+    if isinstance(a, np.ndarray) and a.dtype == dtype and a.flags.c_contiguous and _sealed(a):
         return a
     arr = np.array(a, dtype=dtype, copy=True)
     arr.setflags(write=False)
@@ -175,6 +181,37 @@ class StatusChannel:
         return dataclasses.replace(self, values=values)
 
 
+class _LazyDigest:
+    """``Provenance.sha256``: the digest given, or one computed on first access.
+
+    A reader hands the bytes it decoded (``hash_source``) instead of a digest, so a read
+    that nobody asks the hash of does not pay for it. The first access hashes those bytes
+    (not the file again: the digest must describe what was decoded even if the file
+    changes later), caches the hex digest and lets go of the bytes.
+    """
+
+    def __set_name__(self, owner: type, name: str) -> None:
+        self._slot = "_" + name
+
+    def __get__(self, obj: object, objtype: type | None = None) -> str:
+        if obj is None:
+            return ""  # the dataclass default
+        d = obj.__dict__
+        value: str = d.get(self._slot, "")
+        source = d.get("hash_source", ())
+        if not value and source:
+            hasher = hashlib.sha256()
+            for chunk in source:
+                hasher.update(chunk)
+            value = hasher.hexdigest()
+            d[self._slot] = value
+            d["hash_source"] = ()
+        return value
+
+    def __set__(self, obj: object, value: str) -> None:
+        obj.__dict__[self._slot] = value
+
+
 @dataclass(frozen=True)
 class Provenance:
     """Where a record came from.
@@ -190,23 +227,33 @@ class Provenance:
     container : str
         ``"cfg+dat"``, ``"cff"`` or ``"memory"``.
     sha256 : str
-        Content hash of the file(s) read (cfg then dat, or the cff), ``""`` in memory.
+        Content hash (SHA-256, hex) of the file(s) read (cfg then dat, or the cff), ``""``
+        in memory. Computed on first access from ``hash_source`` when not given.
     encoding : str
         Text encoding used for the configuration.
     time_source : str
         ``"timestamps"`` or ``"rates"``: what the time axis was built from.
     notes : tuple of str
         Tolerated deviations and reader decisions worth telling the analyst.
+    hash_source : tuple of bytes
+        The bytes read, in order, kept only until ``sha256`` is first asked for (then
+        emptied); not compared, not shown.
     """
 
     path: str = ""
     revision: str = ""
     data_format: str = ""
     container: str = "memory"
-    sha256: str = ""
+    sha256: str = _LazyDigest()  # type: ignore[assignment]
     encoding: str = "utf-8"
     time_source: str = "rates"
     notes: tuple[str, ...] = ()
+    hash_source: tuple[bytes, ...] = field(default=(), repr=False, compare=False)
+
+    def __getstate__(self) -> dict[str, object]:
+        # pickled (e.g. to a worker process): send the digest, not the bytes
+        _ = self.sha256
+        return dict(self.__dict__)
 
 
 @dataclass(frozen=True)

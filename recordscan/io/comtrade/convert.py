@@ -250,47 +250,67 @@ def to_record(
     provenance: Provenance,
     header_text: str = "",
     info_text: str = "",
+    hash_source: tuple[bytes, ...] = (),
 ) -> Record:
-    """Build a :class:`Record` (primary SI values) from the raw cfg and dat contents."""
+    """Build a :class:`Record` (primary SI values) from the raw cfg and dat contents.
+
+    ``hash_source``, when given, are the bytes read; the record's ``provenance.sha256`` is
+    then computed from them on first access (``provenance.sha256`` is used otherwise).
+    """
     t_s, time_source, time_notes = time_axis(cfg, raw, name=name)
     t_s = np.ascontiguousarray(t_s, dtype=np.float64)
     t_s.setflags(write=False)
     analog = []
-    raw_analog = raw.analog
-    for j, spec in enumerate(cfg.analog):
-        base, factor = split_unit(spec.uu)
-        is_vi = base in ("V", "A")
-        scaling = Scaling(
-            a=spec.a,
-            b=spec.b,
-            unit_factor=factor if is_vi else 1.0,
-            primary=spec.primary,
-            secondary=spec.secondary,
-            ps=spec.ps,
-            skew_s=spec.skew_us * 1e-6,
+    scalings: list[tuple[Scaling, str]] = []
+    n_analog = len(cfg.analog)
+    # One pass turns the (sample, channel) rows into contiguous float64 channel rows (exact
+    # for int16/int32/float32); scaling is then in place, row by row. Signalling NaNs in
+    # FLOAT32 data, absurd a·x products: no stray warnings.
+    with np.errstate(invalid="ignore", over="ignore"):
+        block = (
+            raw.analog.T.astype(np.float64, order="C")
+            if n_analog
+            else np.empty((0, raw.n_samples), dtype=np.float64)
         )
-        f = scaling.to_primary
-        # signalling NaNs in FLOAT32 data, absurd a·x products: no stray warnings
-        column = raw_analog[:, j]
-        with np.errstate(invalid="ignore", over="ignore"):
-            if column.dtype.kind == "i":
-                # integer × Python float gives float64 in one fast pass (no dtype= path)
-                values = column * float(spec.a * f)
-            else:
-                values = column.astype(np.float64)
-                values *= spec.a * f
+        marker = raw.marker
+        # the integer missing marker is the format's most negative value: look for it per
+        # channel only when the record holds it at all
+        any_marker = marker is not None and block.size > 0 and float(block.min()) <= marker
+        for j, spec in enumerate(cfg.analog):
+            base, factor = split_unit(spec.uu)
+            is_vi = base in ("V", "A")
+            scaling = Scaling(
+                a=spec.a,
+                b=spec.b,
+                unit_factor=factor if is_vi else 1.0,
+                primary=spec.primary,
+                secondary=spec.secondary,
+                ps=spec.ps,
+                skew_s=spec.skew_us * 1e-6,
+            )
+            f = scaling.to_primary
+            values = block[j]
+            miss = None
+            if any_marker:
+                miss = values == marker
+            elif raw.missing is not None:
+                miss = raw.missing[:, j]
+            values *= spec.a * f
             if spec.b:
                 values += spec.b * f
-        if raw.missing is not None:
-            miss = raw.missing[:, j]
-            if miss.any():
+            if miss is not None and miss.any():
                 values[miss] = np.nan
-        values.setflags(write=False)  # handed over to the Record without another copy
+            scalings.append((scaling, base if is_vi else spec.uu.strip()))
+    # read-only block and rows: handed over to the Record without another copy
+    block.setflags(write=False)
+    for j, (spec, (scaling, unit)) in enumerate(zip(cfg.analog, scalings, strict=True)):
+        values = block[j]
+        values.setflags(write=False)
         analog.append(
             AnalogChannel(
                 name=spec.name,
                 values=values,
-                unit=base if is_vi else spec.uu.strip(),
+                unit=unit,
                 phase=canonical_phase(spec.ph, spec.name),
                 circuit=spec.ccbm,
                 source_index=spec.index,
@@ -299,10 +319,15 @@ def to_record(
                 scaling=scaling,
             )
         )
+    # status rows contiguous in one copy, handed over read-only
+    status_block = np.ascontiguousarray(raw.status.T, dtype=bool)
+    if status_block.base is not None:
+        status_block = status_block.copy()
+    status_block.setflags(write=False)
     digital = [
         StatusChannel(
             name=spec.name,
-            values=raw.status[:, k],
+            values=status_block[k],
             phase=canonical_phase(spec.ph, spec.name),
             circuit=spec.ccbm,
             normal_state=spec.y,
@@ -336,9 +361,10 @@ def to_record(
             revision=cfg.revision,
             data_format=cfg.data_format,
             container=provenance.container,
-            sha256=provenance.sha256,
+            sha256="" if hash_source else provenance.sha256,
             encoding=provenance.encoding,
             time_source=time_source,
             notes=notes,
+            hash_source=hash_source,
         ),
     )

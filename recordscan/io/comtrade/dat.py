@@ -48,9 +48,14 @@ class RawData:
         ``(n_samples, n_analog)`` raw values as float64 with NaN for missing ones, or the
         raw integer/float32 view for binary formats (see ``missing``).
     missing : numpy.ndarray or None
-        ``(n_samples, n_analog)`` bool mask of missing values, None if none are missing.
+        ``(n_samples, n_analog)`` bool mask of missing values, None if none are missing or
+        if ``marker`` is given.
     status : numpy.ndarray
         ``(n_samples, n_status)`` bool.
+    marker : int or None
+        For the integer binary formats, the raw value that marks a missing sample; the
+        samples holding it are found while scaling (one pass fewer over the raw data than
+        a separate mask). None when ``missing`` says it all.
     """
 
     sample_numbers: np.ndarray
@@ -58,6 +63,7 @@ class RawData:
     analog: np.ndarray
     missing: np.ndarray | None
     status: np.ndarray
+    marker: int | None = None
 
     @property
     def n_samples(self) -> int:
@@ -121,7 +127,8 @@ def decode_binary(
     Returns
     -------
     RawData
-        ``analog`` is the raw integer (or float32) view, ``missing`` the marker mask.
+        ``analog`` is the raw integer (or float32) view; ``marker`` the integer formats'
+        missing-value marker, ``missing`` the NaN/infinity mask of FLOAT32.
 
     Raises
     ------
@@ -152,8 +159,6 @@ def decode_binary(
         with np.errstate(invalid="ignore"):
             bad = ~np.isfinite(analog)  # NaN marks missing; an infinity is no measurement
         miss = bad if bad.any() else None
-    elif analog.size and analog.min() == MISSING_INT[data_format]:
-        miss = analog == MISSING_INT[data_format]
     ts = rows["ts"].astype(np.float64)
     if ts.size and ts.max() == TIMESTAMP_MISSING:
         ts[ts == TIMESTAMP_MISSING] = np.nan
@@ -163,6 +168,7 @@ def decode_binary(
         analog=analog,
         missing=miss,
         status=_unpack_status(rows["d"], n_status),
+        marker=MISSING_INT.get(data_format),
     )
 
 

@@ -6,14 +6,10 @@ Only numpy is imported here; pandas is imported lazily for ASCII data files, so 
 
 from __future__ import annotations
 
-import hashlib
 import os
-import queue
 import re
-import threading
 import unicodedata
 from pathlib import Path
-from typing import Any
 
 from recordscan.core.record import Provenance, Record
 from recordscan.errors import FormatError, MissingFileError
@@ -252,53 +248,6 @@ def decode_dat(cfg: Config, data: bytes, *, name: str, data_format: str) -> RawD
     return decode_binary(data, data_format=data_format, **common)
 
 
-# --------------------------------------------------------------------------- hashing
-_HASH_JOBS: queue.SimpleQueue[tuple[Any, bytes, threading.Event]] | None = None
-_HASH_LOCK = threading.Lock()
-_SMALL = 1 << 16
-
-
-def _forget_worker() -> None:
-    """In a forked child the worker thread does not exist: start a new one on demand."""
-    global _HASH_JOBS
-    _HASH_JOBS = None
-
-
-if hasattr(os, "register_at_fork"):
-    os.register_at_fork(after_in_child=_forget_worker)
-
-
-def _hash_worker(jobs: queue.SimpleQueue[tuple[Any, bytes, threading.Event]]) -> None:
-    while True:
-        hasher, data, done = jobs.get()
-        try:
-            hasher.update(data)
-        finally:
-            done.set()
-
-
-def _hash_async(hasher: Any, data: bytes) -> threading.Event:
-    """Feed ``data`` to ``hasher`` on a background thread; the event is set when done.
-
-    hashlib releases the GIL on large buffers, so the SHA-256 of a big .dat runs while numpy
-    decodes it. One long-lived daemon thread serves all reads (no per-read start-up).
-    """
-    global _HASH_JOBS
-    done = threading.Event()
-    if len(data) < _SMALL:
-        hasher.update(data)
-        done.set()
-        return done
-    with _HASH_LOCK:
-        if _HASH_JOBS is None:
-            _HASH_JOBS = queue.SimpleQueue()
-            threading.Thread(
-                target=_hash_worker, args=(_HASH_JOBS,), name="recordscan-sha256", daemon=True
-            ).start()
-    _HASH_JOBS.put((hasher, data, done))
-    return done
-
-
 # --------------------------------------------------------------------------- read
 def read_comtrade(path: str | os.PathLike[str], *, encoding: str | None = None) -> Record:
     """Read a COMTRADE record without assigning roles.
@@ -313,7 +262,9 @@ def read_comtrade(path: str | os.PathLike[str], *, encoding: str | None = None) 
     Returns
     -------
     Record
-        Primary SI values, provenance filled.
+        Primary SI values, provenance filled. ``provenance.sha256`` (of the cfg then the
+        dat bytes, or of the cff) is computed on first access from the bytes that were
+        decoded, so reads whose hash nobody asks for do not pay for it.
     """
     container, main, dat_path = resolve(path)
     if container == "cff":
@@ -326,15 +277,10 @@ def read_comtrade(path: str | os.PathLike[str], *, encoding: str | None = None) 
             raise FormatError(
                 f"{name}: DAT section is {sections.dat_format} but the cfg says {cfg.data_format}"
             )
-        hasher = hashlib.sha256()
-        done = _hash_async(hasher, blob)
-        try:
-            raw = decode_dat(cfg, sections.dat, name=name, data_format=cfg.data_format)
-        finally:
-            done.wait()
+        raw = decode_dat(cfg, sections.dat, name=name, data_format=cfg.data_format)
         header = _side_text(sections.hdr, encoding or used, name)
         info = _side_text(sections.inf, encoding or used, name)
-        digest = hasher.hexdigest()
+        hash_source: tuple[bytes, ...] = (blob,)
         notes = sections.notes
     else:
         assert dat_path is not None
@@ -342,13 +288,8 @@ def read_comtrade(path: str | os.PathLike[str], *, encoding: str | None = None) 
         text, used = decode_text(cfg_bytes, encoding=encoding, name=str(main))
         cfg = parse_cfg(text, name=str(main))
         dat_bytes = _read_bytes(dat_path)
-        hasher = hashlib.sha256(cfg_bytes)
-        done = _hash_async(hasher, dat_bytes)
-        try:
-            raw = decode_dat(cfg, dat_bytes, name=str(dat_path), data_format=cfg.data_format)
-        finally:
-            done.wait()
-        digest = hasher.hexdigest()
+        raw = decode_dat(cfg, dat_bytes, name=str(dat_path), data_format=cfg.data_format)
+        hash_source = (cfg_bytes, dat_bytes)
         stem = main.with_suffix("")
         upper = main.suffix.isupper()
         header = info = ""
@@ -363,7 +304,6 @@ def read_comtrade(path: str | os.PathLike[str], *, encoding: str | None = None) 
     prov = Provenance(
         path=str(main),
         container=container,
-        sha256=digest,
         encoding=used,
         notes=tuple(notes),
     )
@@ -372,6 +312,7 @@ def read_comtrade(path: str | os.PathLike[str], *, encoding: str | None = None) 
         raw,
         name=name,
         provenance=prov,
+        hash_source=hash_source,
         header_text=header.replace("\x1a", ""),
         info_text=info.replace("\x1a", ""),
     )
