@@ -697,7 +697,7 @@ def analyse(
             warns.append(f"fault location {loc.distance_pct:.0f} % lies off the line; ignored")
             loc = None
     # ---------------------------------------------------------------- line estimate
-    est_v = est_a = None
+    est_v = est_a = est_fn = None
     if ld is not None:
         try:
             from recordscan.physics.coupling import open_phase_coupling
@@ -709,6 +709,7 @@ def analyse(
                 load_current_a=float(load_a or 0.0),
             )
             est_v, est_a = cp.recovery_voltage_rms_v, cp.secondary_arc_current_rms_a
+            est_fn = cp.free_frequency_hz
         except RecordScanError as exc:
             warns.append(f"line estimate unavailable: {exc}")
     level_min = opts.level_min
@@ -752,6 +753,7 @@ def analyse(
             weak_margin=opts.weak_margin,
             weak_tail=opts.weak_tail,
             beat_check=ld is not None and ld.compensation > 0,
+            free_frequency_hz=est_fn,
         )
         warns += list(ext.warnings)
         if ext.extinction_s is not None:

@@ -36,6 +36,7 @@ from recordscan.core.events import Event, Evidence
 from recordscan.core.record import Record
 from recordscan.core.roles import ARC_CURRENT, PHASES, V_LINE
 from recordscan.detect._base import Quantities, finite_median, where
+from recordscan.detect.ringdown import ringdown_extinction
 from recordscan.errors import DetectionError
 from recordscan.signal.charfunc import robust_scale, step_score
 from recordscan.signal.filters import running_max
@@ -452,6 +453,7 @@ def detect_extinction(
     weak_margin: float = 0.015,
     weak_tail: float = 0.06,
     beat_check: bool = False,
+    free_frequency_hz: float | None = None,
 ) -> ExtinctionResult:
     """Find the final extinction of the secondary arc on ``phase``.
 
@@ -486,6 +488,10 @@ def detect_extinction(
         The line is shunt-compensated: also look for the onset of the open phase's free
         oscillation (its voltage phasor stops being locked to the healthy phases and beats),
         and take it when it is more than two cycles away from the harmonic-signature instant.
+    free_frequency_hz : float, optional
+        The open phase's free-oscillation frequency expected from the line description
+        (:func:`recordscan.physics.coupling.open_phase_coupling`); guides the ring-down fit
+        (:mod:`recordscan.detect.ringdown`) on compensated lines.
     refine_record : Record, optional
         The same record at its full sample rate when ``record`` was block-averaged
         (:func:`recordscan.detect._base.decimate_record`): the instant is then refined on
@@ -637,7 +643,18 @@ def detect_extinction(
         gap_lo = float(t[seg_lo - 1]) if seg_lo > 0 else float(t[0])
         unc = max(unc, float(t[seg_lo]) - gap_lo)
         warns.append("extinction fell in a gap of the record; its instant is bounded by the gap")
-    if beat_check:
+    rd = None
+    if beat_check and q.segment_at(b - 1).start_idx <= lo:
+        rd = ringdown_extinction(v, t, lo=lo, hi=b, f_hz=q.f_hz, fn_guess_hz=free_frequency_hz)
+    if rd is not None:
+        k_ext = rd.index
+        unc = 0.1 * q.cycle_s
+        ref = None
+        method = (
+            f"start of the open phase's free ring-down ({rd.free_frequency_hz:.1f} Hz, "
+            "forced-plus-free fit)"
+        )
+    elif beat_check:
         k_beat = _beat_onset(q, phase, lo=max(a + int(n), lo), hi=b, n=n)
         if k_beat is not None and abs(k_beat - k_ext) > 2 * n:
             # on a shunt-compensated line the open phase rings at its own frequency once the
