@@ -36,7 +36,7 @@ import pytest
 from recordscan.analysis import analyse
 
 #: an observable restrike follows an extinction interval of at least this many cycles
-OBSERVABLE_RECOVERY_CYCLES = 0.25
+OBSERVABLE_RECOVERY_CYCLES = 1.0
 
 
 def _line_of(sc):  # type: ignore[no-untyped-def]

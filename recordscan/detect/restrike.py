@@ -68,6 +68,7 @@ def detect_restrikes(
     excursion_factor: float = 2.0,
     min_recovery_cycles: float = 0.2,
     h_on: float = 0.15,
+    reset_ratio: float = 1.6,
 ) -> list[Event]:
     """Restrikes on the open phase within the evaluated arc trace.
 
@@ -88,6 +89,9 @@ def detect_restrikes(
     h_on : float
         The arc signature (harmonic ratio of the trace) must reach this within 2.5 cycles
         after the collapse.
+    reset_ratio : float
+        A reset of the arc-voltage level: the one-cycle peak before an instant this many times
+        the one after it, the arc burning on both sides (see :func:`_level_resets`).
 
     Returns
     -------
@@ -171,6 +175,87 @@ def detect_restrikes(
                     "excursion_factor": excursion_factor,
                     "min_recovery_cycles": min_recovery_cycles,
                 },
+                phase=trace.phase,
+            )
+        )
+    out += _level_resets(record, trace, q, b, [e.t_s for e in out], ratio=reset_ratio)
+    out.sort(key=lambda e: e.t_s)
+    return out
+
+
+def _level_resets(
+    record: Record,
+    trace: ArcTrace,
+    q: Quantities,
+    b: int,
+    known_s: list[float],
+    *,
+    ratio: float,
+) -> list[Event]:
+    """Restrikes seen as a reset of the arc-voltage level within a burning period.
+
+    An elongating secondary arc's voltage grows; when the arc goes out at a current zero, the
+    gap recovers for a fraction of a cycle and breaks down again, the new arc is short and
+    its voltage starts low again. The peak ``|v|`` over the cycle before such an instant is
+    ``ratio`` times or more the peak over the cycle after it (skipping a quarter cycle), and
+    the arc signature is present on both sides. The instant is the largest one-sample fall of
+    ``|v|`` in the half cycle before the reset point.
+    """
+    role = V_LINE[trace.phase]
+    a = trace.start_idx
+    n = trace.n_cycle
+    nc = max(4, round(n))
+    v = np.abs(np.nan_to_num(q.values(role)[a:b]))
+    m = v.shape[0]
+    if m < 6 * nc:
+        return []
+    burning = trace.burning[:m]
+    # causal and anti-causal one-cycle peaks
+    back = running_max(v, nc)  # max over [k - nc + 1, k]
+    fwd = np.full(m, np.nan)
+    q4 = nc // 4
+    fwd[: m - nc - q4] = back[nc + q4 : m]  # max over [k + q4 + 1, k + q4 + nc]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        r = back / fwd
+    cand = np.flatnonzero(np.nan_to_num(r) >= ratio)
+    out: list[Event] = []
+    t = record.t_s
+    last = -(10**9)
+    for k in cand:
+        if k < 2 * nc or k + 2 * nc >= m or k - last < 2 * nc:
+            continue
+        if not (np.any(burning[k - 2 * nc : k - nc]) and np.any(burning[k + nc : k + 2 * nc])):
+            continue
+        lo = max(k - nc // 2, 1)
+        drops = v[lo - 1 : k] - v[lo : k + 1]
+        k_rel = lo + int(np.argmax(drops))
+        t_k = float(t[a + k_rel])
+        last = k
+        if any(abs(t_k - x) < 1.0 / q.f_hz for x in known_s):
+            continue
+        v_pk = float(np.max(v[max(k_rel - nc // 4, 0) : k_rel + 1]))
+        dt = 1.0 / q.segment_at(a + k_rel).rate_hz
+        out.append(
+            Event(
+                kind="restrike",
+                t_s=t_k - 0.5 * dt,
+                uncertainty_s=0.25 / q.f_hz,
+                method="reset of the arc-voltage level (a new, short arc after a brief recovery)",
+                confidence=0.7,
+                evidence=Evidence(
+                    summary=(
+                        f"open-phase voltage peak fell from {float(back[k]):.3g} V over the "
+                        f"cycle before to {float(fwd[k]):.3g} V over the cycle after, the arc "
+                        "signature present on both sides"
+                    ),
+                    quantities={
+                        "voltage_v": v_pk,
+                        "peak_before_v": float(back[k]),
+                        "peak_after_v": float(fwd[k]),
+                    },
+                    channels=(q.channel_name(role),),
+                ),
+                params={"reset_ratio": ratio},
                 phase=trace.phase,
             )
         )
