@@ -126,6 +126,7 @@ class Score:
     rs_obs: Counter = field(default_factory=Counter)
     rs_raw: Counter = field(default_factory=Counter)
     rs_err_ms: list[float] = field(default_factory=list)
+    rs_gap_cycles: list[float] = field(default_factory=list)
     fails: list[str] = field(default_factory=list)
     corpus: Counter = field(default_factory=Counter)
 
@@ -203,6 +204,11 @@ def score(rows: list[tuple]) -> Score:
         got = [e.t_s for e in a.restrikes]
         raw = [float(x) for x in truth.get("restrike_s") or []]
         obs = observable_restrikes(truth, f)
+        ext_all = sorted(truth.get("extinctions_s") or [])
+        for r in raw:
+            before = [e for e in ext_all if e < r]
+            if before:
+                s.rs_gap_cycles.append((r - before[-1]) * f)
         m_raw = _match(got, raw, 1.0 / f)
         s.rs_raw["tp"] += len(m_raw)
         s.rs_raw["fp"] += len(got) - len(m_raw)
@@ -249,6 +255,136 @@ def summary_lines(s: Score) -> list[str]:
     return out
 
 
+def write_report(out_dir: Path, s: Score, *, n: int, seed: int) -> Path:
+    """Write ``scan-seed-<seed>.md`` and its extinction-error histogram into ``out_dir``."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    out_dir.mkdir(parents=True, exist_ok=True)
+    png = out_dir / f"extinction-error-seed-{seed}.png"
+    errs = np.array(s.ext_err_cycles)
+    fig, ax = plt.subplots(figsize=(7, 3.5))
+    clipped = np.clip(errs, -5, 5)
+    for g, colour in (("uncompensated", "tab:blue"), ("compensated", "tab:orange")):
+        sel = np.array([x == g for x in s.ext_group], dtype=bool)
+        ax.hist(
+            clipped[sel] if sel.size else [],
+            bins=np.arange(-5, 5.01, 0.25),
+            alpha=0.7,
+            label=g,
+            color=colour,
+        )
+    ax.axvline(-1, color="k", ls=":", lw=1)
+    ax.axvline(1, color="k", ls=":", lw=1)
+    ax.set_xlabel("detected − true final extinction (cycles; clipped to ±5)")
+    ax.set_ylabel("events")
+    ax.set_title(f"Final-extinction error, simulated corpus (seed {seed}, {n} draws)")
+    ax.legend()
+    fig.tight_layout()
+    fig.savefig(png, dpi=90)
+    plt.close(fig)
+    a_err = np.abs(errs) if errs.size else np.array([np.nan])
+    a_ms = np.abs(np.array(s.ext_err_ms)) if s.ext_err_ms else np.array([np.nan])
+    ok, tot = s.within()
+    p_o, r_o = s.pr(s.rs_obs)
+    p_r, r_r = s.pr(s.rs_raw)
+    gaps = np.array(s.rs_gap_cycles) if s.rs_gap_cycles else np.array([np.nan])
+    events = sorted({k for k, _ in s.confusion} | {k for _, k in s.confusion})
+    lines = [
+        f"# Scan accuracy on the simulated corpus — seed {seed}",
+        "",
+        "Written by `tests/test_detect_accuracy.py` (numbers from that run only):",
+        "",
+        "```sh",
+        f"RECORDSCAN_ACCURACY_N={n} RECORDSCAN_ACCURACY_SEED={seed} "
+        "RECORDSCAN_ACCURACY_REPORT=docs/accuracy \\",
+        "  .venv/bin/python -m pytest -m accuracy -s tests/test_detect_accuracy.py",
+        "```",
+        "",
+        "## Corpus",
+        "",
+        f"{s.n} events drawn by `recordscan.synth.sweep.draw_scenarios({n}, seed={seed})`: "
+        + ", ".join(f"{v} {k[1]}" for k, v in sorted(s.corpus.items()) if k[0] == "event")
+        + "; "
+        + ", ".join(f"{v} at {k[1]} Hz" for k, v in sorted(s.corpus.items()) if k[0] == "f")
+        + "; VTs "
+        + ", ".join(f"{v} {k[1]}" for k, v in sorted(s.corpus.items()) if k[0] == "vt")
+        + f"; {s.n_compensated} of the single-pole trips on shunt-compensated lines. Each "
+        "record is analysed with its line description (reactors included).",
+        "",
+        "## Final extinction",
+        "",
+        f"Events whose truth has a final extinction: {tot}. Within one power-frequency cycle: "
+        f"**{ok}/{tot} = {ok / max(tot, 1):.1%}** (floor 95 %). Missed (censored although "
+        f"the arc went out): {s.ext_missing}; reported where the arc still burned at the "
+        f"end of the observation: {s.ext_false}.",
+        "",
+        "| lines | within one cycle |",
+        "| --- | --- |",
+    ]
+    for g in ("uncompensated", "compensated"):
+        ok_g, tot_g = s.within(g)
+        lines.append(f"| {g} | {ok_g}/{tot_g} |")
+    lines += [
+        "",
+        "| |error| of the found extinctions | median | 95th percentile |",
+        "| --- | --- | --- |",
+        f"| cycles | {np.median(a_err):.2f} | {np.percentile(a_err, 95):.2f} |",
+        f"| ms | {np.median(a_ms):.1f} | {np.percentile(a_ms, 95):.1f} |",
+        "",
+        f"![extinction error histogram]({png.name})",
+        "",
+        "## Restrikes",
+        "",
+        f"An *observable restrike* follows at least {OBSERVABLE_RECOVERY_CYCLES:g} "
+        "power-frequency cycle of extinction (see docs/detection.md). In this corpus the "
+        f"{len(s.rs_gap_cycles)} truth restrikes follow extinction intervals of "
+        f"{np.nanmin(gaps):.3f}–{np.nanmax(gaps):.2f} cycle (median {np.nanmedian(gaps):.2f}).",
+        "",
+        "| against | true positives | false positives | missed | precision | recall |",
+        "| --- | --- | --- | --- | --- | --- |",
+        f"| observable restrikes | {s.rs_obs['tp']} | {s.rs_obs['fp']} | {s.rs_obs['fn']} | "
+        + (f"{p_o:.2f}" if s.rs_obs["tp"] + s.rs_obs["fp"] else "—")
+        + " | "
+        + (f"{r_o:.2f}" if s.rs_obs["tp"] + s.rs_obs["fn"] else "— (none in the corpus)")
+        + " |",
+        f"| all truth restrikes (raw) | {s.rs_raw['tp']} | {s.rs_raw['fp']} | "
+        f"{s.rs_raw['fn']} | {p_r:.2f} | {r_r:.2f} |",
+        "",
+        f"Detections matching a truth restrike that is not observable: {s.rs_obs['neither']} "
+        "(counted neither way in the observable row). A detection matches a truth restrike "
+        "within one cycle.",
+        "",
+        "## Event classification (rows: truth, columns: found)",
+        "",
+        "| truth \\ found | " + " | ".join(events) + " |",
+        "| --- | " + " | ".join("---" for _ in events) + " |",
+    ]
+    for tr in events:
+        if not any(k == tr for k, _ in s.confusion):
+            continue
+        lines.append(
+            f"| {tr} | " + " | ".join(str(s.confusion.get((tr, fd), 0)) for fd in events) + " |"
+        )
+    lines += [
+        "",
+        "## Faulted phase, outcome, false chains",
+        "",
+        f"- faulted phase right: {s.phase_ok}/{s.phase_n} single-pole trips (floor 99 %)",
+        f"- outcome right: {s.outcome_ok}/{s.outcome_n} classified single-pole trips (floor 99 %)",
+        f"- single-pole chain reported on a record without one: {s.false_chain} (floor 0)",
+        "",
+        "## Every miss",
+        "",
+    ]
+    lines += [f"- {x}" for x in s.fails] or ["- none"]
+    md = out_dir / f"scan-seed-{seed}.md"
+    md.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    return md
+
+
 def analyse_corpus(corpus: list[tuple]) -> list[tuple]:
     """Analyse each record with its line description."""
     return [(sc, tr, rec, line, analyse(rec, line=line)) for sc, tr, rec, line in corpus]
@@ -265,8 +401,6 @@ def test_scan_accuracy_on_simulated_corpus() -> None:
         print(line)
     report_dir = os.environ.get("RECORDSCAN_ACCURACY_REPORT")
     if report_dir:
-        from accuracy_report import write_report
-
         write_report(Path(report_dir), s, n=n, seed=seed)
     ok, tot = s.within()
     assert s.false_chain == 0
