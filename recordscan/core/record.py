@@ -353,8 +353,15 @@ class Record:
         """Uniformly sampled, gap-free pieces of the record.
 
         A new segment starts wherever the sample interval changes by more than 1 % (a new
-        rate or a gap).
+        rate or a gap). Worked out once per record (the time axis is read-only).
         """
+        cached = self.__dict__.get("_segments")
+        if cached is None:
+            cached = self._find_segments()
+            self.__dict__["_segments"] = cached  # a cache, not a field: frozen stays frozen
+        return cached
+
+    def _find_segments(self) -> tuple[Segment, ...]:
         n = self.n_samples
         if n < 2:
             return (Segment(0, n, 0.0),) if n else ()

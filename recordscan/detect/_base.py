@@ -15,7 +15,7 @@ import numpy as np
 from recordscan.core.record import Record, Segment
 from recordscan.core.roles import I_LINE, PHASES, POLE_CLOSED, V_LINE
 from recordscan.errors import DetectionError
-from recordscan.signal.charfunc import robust_scale
+from recordscan.signal.charfunc import fast_median, robust_scale
 from recordscan.signal.filters import highpass
 from recordscan.signal.phasor import dft_kernel, full_cycle_phasor, sliding_rms
 from recordscan.signal.sequence import superimposed
@@ -31,7 +31,7 @@ def finite_median(x: np.ndarray) -> float:
     """Median of the finite values (NaN when there are none), without a warning."""
     x = np.asarray(x, dtype=np.float64)
     x = x[np.isfinite(x)]
-    return float(np.median(x)) if x.size else float("nan")
+    return fast_median(x) if x.size else float("nan")
 
 
 def decimate_record(record: Record, *, min_samples_per_cycle: float = 40.0) -> Record:
@@ -61,21 +61,19 @@ def decimate_record(record: Record, *, min_samples_per_cycle: float = 40.0) -> R
         if n_blk == 0:
             continue
         lo, hi = seg.start_idx, seg.start_idx + n_blk * k
-        t_parts.append(record.t_s[lo:hi].reshape(n_blk, k).mean(axis=1))
+        t_parts.append(_block_mean(record.t_s, lo, n_blk, k))
         for j, ch in enumerate(record_analog):
-            a_parts[j].append(ch.values[lo:hi].reshape(n_blk, k).mean(axis=1))
+            a_parts[j].append(_block_mean(ch.values, lo, n_blk, k))
         for j, ch in enumerate(record_digital):
             d_parts[j].append(ch.values[lo + k - 1 : hi : k])
     analog = [
-        ch.with_values(np.concatenate(parts))
-        for ch, parts in zip(record_analog, a_parts, strict=True)
+        ch.with_values(_joined(parts)) for ch, parts in zip(record_analog, a_parts, strict=True)
     ]
     digital = [
-        ch.with_values(np.concatenate(parts))
-        for ch, parts in zip(record_digital, d_parts, strict=True)
+        ch.with_values(_joined(parts)) for ch, parts in zip(record_digital, d_parts, strict=True)
     ]
     return Record(
-        t_s=np.concatenate(t_parts),
+        t_s=_joined(t_parts),
         analog=tuple(analog),
         digital=tuple(digital),
         frequency_hz=record.frequency_hz,
@@ -88,6 +86,37 @@ def decimate_record(record: Record, *, min_samples_per_cycle: float = 40.0) -> R
         provenance=record.provenance,
         processing=(*record.processing, f"block-averaged to {min_samples_per_cycle:g}+ per cycle"),
     )
+
+
+def _block_mean(x: np.ndarray, lo: int, n_blk: int, k: int) -> np.ndarray:
+    """Means of ``n_blk`` consecutive blocks of ``k`` samples from ``x[lo]`` on.
+
+    Below 8 samples per block, summed block member by block member (k strided passes; the
+    same additions in the same order as ``reshape(n_blk, k).mean(axis=1)``, whose
+    short-axis reduction is slow); numpy's pairwise summation from 8 on is kept as is.
+    """
+    hi = lo + n_blk * k
+    if k >= 8:
+        return x[lo:hi].reshape(n_blk, k).mean(axis=1)
+    out = x[lo:hi:k].copy()
+    for j in range(1, k):
+        out += x[lo + j : hi : k]
+    out /= k
+    return out
+
+
+def _finite(x: np.ndarray) -> np.ndarray:
+    """``np.nan_to_num(x)``, or ``x`` itself (read-only channel data) when all finite."""
+    return x if np.isfinite(x).all() else np.nan_to_num(x)
+
+
+def _joined(parts: list[np.ndarray]) -> np.ndarray:
+    """Concatenate, read-only, so that the record takes the array without another copy."""
+    out = parts[0] if len(parts) == 1 else np.concatenate(parts)
+    if out.base is not None:
+        out = out.copy()
+    out.setflags(write=False)
+    return out
 
 
 def where(record: Record) -> str:
@@ -199,7 +228,7 @@ class Quantities:
             x = self.values(role)
             if x is None:
                 raise DetectionError(f"{where(self.record)}: no channel has role {role}")
-            arr = make(np.nan_to_num(x))
+            arr = make(_finite(x))
             arr.setflags(write=False)
             self._cache[key] = arr
         return self._cache[key]
@@ -319,7 +348,7 @@ class Quantities:
 
     def _hratio_range(self, role: str, a: int, b: int) -> np.ndarray:
         """Harmonic ratio over samples ``a:b`` computed on that stretch alone (per segment)."""
-        x = np.nan_to_num(self.values(role))
+        x = _finite(self.values(role))
         out = np.full(b - a, np.nan)
         for sgm in self.segments:
             s0, s1 = max(sgm.start_idx, a), min(sgm.stop_idx, b)

@@ -18,6 +18,7 @@ from recordscan.detect._base import Quantities
 from recordscan.detect.inception import PrefaultState
 from recordscan.detect.phase_select import FaultSelection
 from recordscan.detect.pole_opening import PoleOpening
+from recordscan.signal.charfunc import fast_median
 
 __all__ = ["EVENT_KINDS", "Classification", "classify_event", "fault_current_rms"]
 
@@ -68,7 +69,7 @@ def fault_current_rms(
     mag = mag[np.isfinite(mag)]
     if mag.size == 0:
         return None
-    return float(np.median(mag))
+    return fast_median(mag)
 
 
 def classify_event(

@@ -19,7 +19,7 @@ from recordscan.core.record import Record
 from recordscan.core.roles import I_LINE, PHASES, V_LINE
 from recordscan.detect._base import Quantities, where
 from recordscan.errors import DetectionError
-from recordscan.signal.charfunc import robust_scale
+from recordscan.signal.charfunc import fast_median, robust_scale
 from recordscan.signal.onset import first_sustained, last_crossing_before
 from recordscan.signal.phasor import estimate_frequency
 from recordscan.signal.sequence import sequence_components
@@ -257,7 +257,7 @@ def detect_inception(
         sigma = robust_scale(d[base])
         mag = q.magnitude(role)
         finite = np.isfinite(mag[base])
-        peak = np.sqrt(2.0) * float(np.median(mag[base][finite])) if np.any(finite) else 0.0
+        peak = np.sqrt(2.0) * fast_median(mag[base][finite]) if np.any(finite) else 0.0
         thr = max(noise_factor * sigma, frac * peak, 1e-9)
         with np.errstate(invalid="ignore"):
             mask = np.abs(d) > thr

@@ -24,6 +24,7 @@ from recordscan.core.record import Record
 from recordscan.core.roles import I_LINE, PHASES, V_LINE
 from recordscan.detect._base import Quantities, where
 from recordscan.errors import DetectionError
+from recordscan.signal.charfunc import fast_median
 from recordscan.signal.sequence import sequence_components
 
 __all__ = [
@@ -169,7 +170,7 @@ def locate_single_ended(
     m = m[np.isfinite(m)]
     if m.size == 0:
         return None
-    med = float(np.median(m))
+    med = fast_median(m)
     spread = float(np.percentile(m, 75) - np.percentile(m, 25)) if m.size > 3 else 0.05
     err = max(spread, 0.01) * length_m
     return FaultLocation(med * length_m, 100.0 * med, err, "takagi")

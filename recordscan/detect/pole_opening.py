@@ -17,6 +17,7 @@ from recordscan.core.events import Event, Evidence
 from recordscan.core.record import Record
 from recordscan.core.roles import I_LINE, PHASES, POLE_CLOSED, TRIP, TRIP_3P
 from recordscan.detect._base import Quantities
+from recordscan.signal.charfunc import fast_median
 from recordscan.signal.onset import first_sustained
 
 __all__ = [
@@ -285,7 +286,7 @@ def infer_remote_opening(
         tail = tail[np.isfinite(tail)]
         if tail.size == 0:
             continue
-        final = complex(np.median(tail.real), np.median(tail.imag))
+        final = complex(fast_median(tail.real), fast_median(tail.imag))
         d = np.abs(ph[lo : k_fin + 1] - final)
         sigma = q.noise(I_LINE[p]) * np.sqrt(2.0 / n)
         thr = max(noise_factor * sigma, fraction * abs(final), 1e-9)

@@ -16,6 +16,7 @@ from recordscan.core.events import Event, Evidence
 from recordscan.core.record import Record
 from recordscan.core.roles import I_LINE, PHASES, POLE_CLOSED, V_LINE
 from recordscan.detect._base import Quantities
+from recordscan.signal.charfunc import fast_median
 from recordscan.signal.onset import first_sustained, last_crossing_before
 
 __all__ = ["RecloseResult", "detect_reclose"]
@@ -168,7 +169,7 @@ def detect_reclose(
             # a long line, not a fault (a fault holds the voltage down)
             v_after = q.magnitude(V_LINE[phase])[k_a:k_b]
             v_after = v_after[np.isfinite(v_after)]
-            if v_after.size and float(np.median(v_after)) > 0.95 * v_phase_rms_v:
+            if v_after.size and fast_median(v_after) > 0.95 * v_phase_rms_v:
                 onto_fault = False
         if onto_fault:
             outcome = "reclose_onto_fault"

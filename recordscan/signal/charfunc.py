@@ -13,7 +13,25 @@ import numpy as np
 
 from recordscan.signal.filters import moving_average
 
-__all__ = ["normalised_delta", "robust_scale", "sta_lta", "step_score"]
+__all__ = ["fast_median", "normalised_delta", "robust_scale", "sta_lta", "step_score"]
+
+
+def fast_median(x: np.ndarray) -> float:
+    """``float(np.median(x))`` of a 1-D array, with less overhead on finite data.
+
+    For finite data: one partition and the middle value (odd length) or the mean of the two
+    middle values (even length) - the same numbers ``np.median`` takes, so the same result.
+    Anything else (NaN, infinities, empty) goes to ``np.median`` itself.
+    """
+    x = np.asarray(x, dtype=np.float64)
+    n = x.shape[0]
+    if x.ndim != 1 or n == 0 or not np.isfinite(x).all():
+        return float(np.median(x))
+    h = n // 2
+    if n % 2:
+        return float(np.partition(x, h)[h])
+    part = np.partition(x, (h - 1, h))
+    return float((part[h - 1] + part[h]) / 2.0)
 
 
 def robust_scale(x: np.ndarray) -> float:
@@ -22,7 +40,19 @@ def robust_scale(x: np.ndarray) -> float:
     x = x[np.isfinite(x)]
     if x.size == 0:
         return 0.0
-    return float(1.4826 * np.median(np.abs(x - np.median(x))))
+    dev = x - _finite_median(x)
+    np.abs(dev, out=dev)
+    return float(1.4826 * _finite_median(dev))
+
+
+def _finite_median(x: np.ndarray) -> float:
+    """:func:`fast_median` of a non-empty 1-D float64 array known to be finite."""
+    n = x.shape[0]
+    h = n // 2
+    if n % 2:
+        return float(np.partition(x, h)[h])
+    part = np.partition(x, (h - 1, h))
+    return float((part[h - 1] + part[h]) / 2.0)
 
 
 def sta_lta(cf: np.ndarray, *, n_sta: int, n_lta: int) -> np.ndarray:

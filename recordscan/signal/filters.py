@@ -3,6 +3,8 @@ running extremes."""
 
 from __future__ import annotations
 
+import functools
+
 import numpy as np
 from numpy.lib.stride_tricks import sliding_window_view
 
@@ -81,11 +83,21 @@ def highpass(x: np.ndarray, *, fs_hz: float, cutoff_hz: float, order: int = 4) -
 
     Returns a copy of ``x`` when it is too short for the filter's edge padding.
     """
-    from scipy.signal import butter, sosfiltfilt
+    from scipy.signal import sosfiltfilt
 
     x = np.asarray(x, dtype=np.float64)
-    sos = butter(order, cutoff_hz, btype="highpass", fs=fs_hz, output="sos")
+    sos = _highpass_sos(int(order), float(cutoff_hz), float(fs_hz)).copy()  # scipy writes
     pad = 3 * (2 * sos.shape[0] + 1)
     if x.shape[0] <= pad:
         return x.copy()
     return sosfiltfilt(sos, x)
+
+
+@functools.lru_cache(maxsize=64)
+def _highpass_sos(order: int, cutoff_hz: float, fs_hz: float) -> np.ndarray:
+    """Butterworth high-pass design as second-order sections, designed once per setting."""
+    from scipy.signal import butter
+
+    sos = butter(order, cutoff_hz, btype="highpass", fs=fs_hz, output="sos")
+    sos.setflags(write=False)
+    return sos
