@@ -1,7 +1,9 @@
 """Scan speed: a typical record (16 analog channels, 10 kHz, 3 s, BINARY) is fully analysed
-in under 3x the time it takes to load it (issue 4). Ratio measured in one run (the two
-candidates interleaved, best of 21, so that a change of machine load hits both alike), and
-the records-per-second figure of one process.
+in under 3x the time it takes to load it (issue 4). Ratio measured in one run: the two
+candidates interleaved, best of 21, so that a change of machine load hits both alike; the
+ratio asserted is of the process CPU time (what the work costs; on a shared machine the
+wall time also counts the waits for a core, which the short load dodges more easily than
+the scan), the wall-time ratio and the records per second of one process are printed.
 
 The record is the hand-built single-pole trip of ``tests/test_detect_waveforms.py`` (phase
 voltages and currents with roles, a secondary arc, a reclose) plus ten channels without a
@@ -26,14 +28,19 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "tests"))
 from test_detect_waveforms import Scenario, build
 
 
-def _best_interleaved(fns: dict[str, Callable[[], object]], repeat: int = 21) -> dict[str, float]:
-    best = dict.fromkeys(fns, float("inf"))
+def _best_interleaved(
+    fns: dict[str, Callable[[], object]], repeat: int = 21
+) -> dict[str, tuple[float, float]]:
+    """Best CPU time and best wall time of each function, the functions run in turn."""
+    cpu = dict.fromkeys(fns, float("inf"))
+    wall = dict.fromkeys(fns, float("inf"))
     for _ in range(repeat):
         for key, fn in fns.items():
-            t0 = time.perf_counter()
+            c0, w0 = time.process_time(), time.perf_counter()
             fn()
-            best[key] = min(best[key], time.perf_counter() - t0)
-    return best
+            cpu[key] = min(cpu[key], time.process_time() - c0)
+            wall[key] = min(wall[key], time.perf_counter() - w0)
+    return {k: (cpu[k], wall[k]) for k in fns}
 
 
 def _typical_record() -> Record:
@@ -56,10 +63,12 @@ def test_scan_under_three_times_load(tmp_path: Path) -> None:
     loaded = read(path)
     assert analyse(loaded).event == "single_pole_trip"  # also warms caches and lazy imports
     times = _best_interleaved({"load": lambda: read(path), "scan": lambda: analyse(read(path))})
-    t_load, t_scan = times["load"], times["scan"]
-    ratio = t_scan / t_load
+    (c_load, w_load), (c_scan, w_scan) = times["load"], times["scan"]
+    ratio = c_scan / c_load
     print(
-        f"\nload {t_load * 1e3:.2f} ms, load+analyse {t_scan * 1e3:.2f} ms, ratio {ratio:.2f}, "
-        f"{1.0 / t_scan:.0f} records/s (one process, analysis only: no output, no hash)"
+        f"\nCPU time: load {c_load * 1e3:.2f} ms, load+analyse {c_scan * 1e3:.2f} ms, "
+        f"ratio {ratio:.2f}; wall time: load {w_load * 1e3:.2f} ms, load+analyse "
+        f"{w_scan * 1e3:.2f} ms, ratio {w_scan / w_load:.2f}; {1.0 / w_scan:.0f} records/s "
+        "(one process, analysis only: no output, no hash)"
     )
     assert ratio < 3.0

@@ -81,23 +81,43 @@ def running_min(x: np.ndarray, n: int) -> np.ndarray:
 def highpass(x: np.ndarray, *, fs_hz: float, cutoff_hz: float, order: int = 4) -> np.ndarray:
     """Zero-phase Butterworth high-pass (forward and backward; gain ``|H|²`` of one pass).
 
-    Returns a copy of ``x`` when it is too short for the filter's edge padding.
+    The same steps as ``scipy.signal.sosfiltfilt`` with its defaults (odd extension of
+    3·ntaps samples at each end, initial states from ``sosfilt_zi`` scaled by the first
+    sample of each pass), with the design and its initial states worked out once per
+    setting. Returns a copy of ``x`` when it is too short for the filter's edge padding.
     """
-    from scipy.signal import sosfiltfilt
+    from scipy.signal import sosfilt
 
     x = np.asarray(x, dtype=np.float64)
-    sos = _highpass_sos(int(order), float(cutoff_hz), float(fs_hz)).copy()  # scipy writes
+    sos, zi, edge = _highpass_design(int(order), float(cutoff_hz), float(fs_hz))
+    sos = sos.copy()  # the cached design stays read-only; scipy wants a writable buffer
     pad = 3 * (2 * sos.shape[0] + 1)
     if x.shape[0] <= pad:
         return x.copy()
-    return sosfiltfilt(sos, x)
+    if edge > 0:
+        ext = np.concatenate((2 * x[0:1] - x[edge:0:-1], x, 2 * x[-1:] - x[-2 : -(edge + 2) : -1]))
+    else:
+        ext = x
+    y, _ = sosfilt(sos, ext, zi=zi * ext[0:1])
+    y, _ = sosfilt(sos, y[::-1], zi=zi * y[-1:])
+    y = y[::-1]
+    if edge > 0:
+        y = y[edge:-edge]
+    return y
 
 
 @functools.lru_cache(maxsize=64)
-def _highpass_sos(order: int, cutoff_hz: float, fs_hz: float) -> np.ndarray:
-    """Butterworth high-pass design as second-order sections, designed once per setting."""
-    from scipy.signal import butter
+def _highpass_design(
+    order: int, cutoff_hz: float, fs_hz: float
+) -> tuple[np.ndarray, np.ndarray, int]:
+    """Butterworth high-pass sections, their ``sosfilt_zi`` states and the padding length."""
+    from scipy.signal import butter, sosfilt_zi
 
     sos = butter(order, cutoff_hz, btype="highpass", fs=fs_hz, output="sos")
+    n_sections = sos.shape[0]
+    ntaps = 2 * n_sections + 1
+    ntaps -= min(int((sos[:, 2] == 0).sum()), int((sos[:, 5] == 0).sum()))
+    zi = sosfilt_zi(sos)
     sos.setflags(write=False)
-    return sos
+    zi.setflags(write=False)
+    return sos, zi, 3 * ntaps

@@ -233,12 +233,19 @@ def _golden(fun: Callable[[float], float], lo: float, hi: float, *, tol: float) 
     return 0.5 * (a + b)
 
 
-def _ls_fit(x: np.ndarray, t: np.ndarray, freqs: list[float]) -> tuple[np.ndarray, float]:
-    cols = [np.ones_like(t)]
-    for f in freqs:
+def _ls_fit(
+    x: np.ndarray, t: np.ndarray, freqs: list[float], *, fixed: np.ndarray | None = None
+) -> tuple[np.ndarray, float]:
+    """Least-squares fit of a constant and a sinusoid per frequency; (coefficients, RMS
+    residual). ``fixed``: the rows ``[1, cos, sin]`` of ``freqs[0]``, when already built."""
+    if fixed is None:
+        fixed = _basis(t, freqs[:1])
+    a = np.empty((1 + 2 * len(freqs), t.shape[0]))
+    a[:3] = fixed
+    for k, f in enumerate(freqs[1:]):
         w = 2 * np.pi * f * t
-        cols += [np.cos(w), np.sin(w)]
-    a = np.stack(cols, axis=0)
+        np.cos(w, out=a[3 + 2 * k])
+        np.sin(w, out=a[4 + 2 * k])
     gram = a @ a.T
     try:
         coef = np.linalg.solve(gram, a @ x)
@@ -246,6 +253,17 @@ def _ls_fit(x: np.ndarray, t: np.ndarray, freqs: list[float]) -> tuple[np.ndarra
         coef = np.linalg.lstsq(a.T, x, rcond=None)[0]
     res = x - coef @ a
     return coef, float(np.sqrt(np.mean(res * res)))
+
+
+def _basis(t: np.ndarray, freqs: list[float]) -> np.ndarray:
+    """Rows ``1, cos(2π·f·t), sin(2π·f·t)`` for each frequency."""
+    a = np.empty((1 + 2 * len(freqs), t.shape[0]))
+    a[0] = 1.0
+    for k, f in enumerate(freqs):
+        w = 2 * np.pi * f * t
+        np.cos(w, out=a[1 + 2 * k])
+        np.sin(w, out=a[2 + 2 * k])
+    return a
 
 
 def fit_beat(
@@ -283,7 +301,8 @@ def fit_beat(
     x = x[::step]
     fs_hz = fs_hz / step
     t = np.arange(x.shape[0]) / fs_hz
-    coef1, res1 = _ls_fit(x, t, [f_hz])
+    fixed = _basis(t, [f_hz])  # the forced rows, shared by every fit below
+    coef1, res1 = _ls_fit(x, t, [f_hz], fixed=fixed)
     forced = float(np.hypot(coef1[1], coef1[2]) / np.sqrt(2.0))
     dur = x.shape[0] / fs_hz
     if dur < 3.0 / f_hz or res1 < min_free_fraction * forced:
@@ -300,8 +319,8 @@ def fit_beat(
     f_guess = float(freqs[band][np.argmax(spec[band])])
     step = max(fs_hz / n_fft * 4, 1.0 / dur)
     lo, hi = max(0.3 * f_hz, f_guess - step), min(1.7 * f_hz, f_guess + step)
-    fn = _golden(lambda fr: _ls_fit(x, t, [f_hz, fr])[1], lo, hi, tol=0.01)
-    coef2, res2 = _ls_fit(x, t, [f_hz, fn])
+    fn = _golden(lambda fr: _ls_fit(x, t, [f_hz, fr], fixed=fixed)[1], lo, hi, tol=0.01)
+    coef2, res2 = _ls_fit(x, t, [f_hz, fn], fixed=fixed)
     forced2 = float(np.hypot(coef2[1], coef2[2]) / np.sqrt(2.0))
     free2 = float(np.hypot(coef2[3], coef2[4]) / np.sqrt(2.0))
     if free2 > min_free_fraction * max(forced2, 1e-300) and res2 < res1 / 1.5:
