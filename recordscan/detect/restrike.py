@@ -19,6 +19,7 @@ from recordscan.core.record import Record
 from recordscan.core.roles import V_LINE
 from recordscan.detect._base import Quantities
 from recordscan.detect.secondary_arc import ArcTrace
+from recordscan.signal.charfunc import fast_median
 from recordscan.signal.filters import moving_average, running_max
 from recordscan.signal.onset import runs
 
@@ -54,7 +55,7 @@ def local_arc_level(
         lo = max(0, j - block)
         sel = burning[lo : j + block]
         if np.any(sel):
-            level = max(float(np.median(abs_v[lo : j + block][sel])), floor)
+            level = max(fast_median(abs_v[lo : j + block][sel]), floor)
         out[j : j + block] = level
     return out
 
@@ -136,7 +137,7 @@ def detect_restrikes(
             continue
         k_rel = lo + 1 + int(np.argmax(drops))
         after = absv[k_rel + 1 : min(k_rel + 1 + half, b - a)]
-        if after.size and float(np.median(after)) > 1.5 * level[k_rel]:
+        if after.size and fast_median(after) > 1.5 * level[k_rel]:
             continue  # the voltage did not fall back to the arc level
         span = max(1, round(n / 40))
         pre = float(np.max(absv[max(k_rel - span, 0) : k_rel]))
