@@ -106,3 +106,43 @@ def test_recovery_voltage_level_and_beat() -> None:
     sc2 = Scenario(free_hz=48.517, recovery_pu=0.05)
     rv2 = analyse(build(sc2)[0]).recovery
     assert rv2.beat_hz == pytest.approx(60.0 - 48.517, abs=0.1)  # 11.48 Hz (REFERENCE 4.6)
+
+
+def _ringdown_signal(
+    *, f_hz: float, fn_hz: float, free_v: float, fs_hz: float = 2400.0, t_ext_s: float = 0.3
+) -> tuple[np.ndarray, np.ndarray]:
+    """Open phase of a compensated line: a square-wave arc voltage, then forced plus free.
+
+    After the extinction the open phase is a linear LC circuit driven at f: its voltage is a
+    forced sinusoid at f plus a free oscillation at the natural frequency f_n, starting at
+    the extinction (derived circuit result; the square wave's 1/k odd harmonics are its
+    Fourier series). 50 dB of white noise relative to the forced peak.
+    """
+    rng = np.random.default_rng(5)
+    t = np.arange(0.0, 1.0, 1.0 / fs_hz)
+    w, wn = 2 * np.pi * f_hz, 2 * np.pi * fn_hz
+    arc = 3e3 * np.sign(np.sin(w * t + 0.3))
+    tau = t - t_ext_s
+    rec = 20e3 * np.sin(w * t + 1.0) + free_v * np.exp(-0.5 * tau) * np.sin(wn * tau + 0.4)
+    v = np.where(t < t_ext_s, arc, rec)
+    v = v + rng.normal(0.0, 20e3 / 10 ** (50 / 20) / np.sqrt(2), t.size)
+    return t, v
+
+
+@pytest.mark.parametrize(("f_hz", "fn_hz"), [(60.0, 48.5), (50.0, 40.4), (50.0, 44.0)])
+def test_ringdown_extinction_at_start_of_free_oscillation(f_hz: float, fn_hz: float) -> None:
+    from recordscan.detect.ringdown import ringdown_extinction
+
+    t, v = _ringdown_signal(f_hz=f_hz, fn_hz=fn_hz, free_v=10e3)
+    got = ringdown_extinction(v, t, lo=int(0.05 * 2400), hi=t.size, f_hz=f_hz)
+    assert got is not None
+    assert abs(float(t[got.index]) - 0.3) * f_hz <= 0.5  # within half a cycle
+    assert got.free_frequency_hz == pytest.approx(fn_hz, abs=0.2)
+
+
+def test_ringdown_needs_a_free_oscillation() -> None:
+    from recordscan.detect.ringdown import ringdown_extinction
+
+    # no free component after the extinction (an uncompensated line): no ring-down answer
+    t, v = _ringdown_signal(f_hz=60.0, fn_hz=48.5, free_v=0.0)
+    assert ringdown_extinction(v, t, lo=120, hi=t.size, f_hz=60.0) is None

@@ -15,7 +15,7 @@ squares) to the last 0.3 s of the observation, where the phase is surely recover
 zero-phase band-pass of 0.5–1.6·``f`` (which keeps both components and removes the line's
 travelling-wave ringing and most of a CVT's slow transient after the extinction). The fitted
 stretch is then grown backwards one cycle at a time while the earlier cycle still follows the
-model (residual RMS below three times the fit's, and below a tenth of the free peak). Where
+model (residual RMS below three times the fit's, or below a tenth of the free peak). Where
 it stops, the model is extrapolated over the two cycles before; the extinction is the first
 sample after the last one departing from it by more than ``max(4 × fit residual, 0.15 × free
 peak)``. Without a clear free component (below 3 % of the forced one, or not significant
@@ -163,8 +163,8 @@ def ringdown_extinction(
     Returns
     -------
     RingdownFit or None
-        None when the recovered stretch shows no clear free oscillation, or the ring-down
-        reaches back to ``lo`` (nothing to separate).
+        None when the recovered stretch shows no clear free oscillation. A ring-down that
+        reaches back to ``lo`` places the extinction within the first two cycles.
     """
     dt = float(np.median(np.diff(t[lo:hi]))) if hi - lo > 2 else 0.0
     if dt <= 0:
@@ -188,6 +188,8 @@ def ringdown_extinction(
     free = float(np.hypot(coef[3], coef[4]))
     if free < min_free_fraction * forced or free < 8.0 * rms * np.sqrt(2.0 / (hi - k)):
         return None
+    if abs(fn - f_hz) < 0.02 * f_hz:
+        return None  # not separable from the forced component over the fitted stretch
 
     def predict(coef: np.ndarray, tp: np.ndarray) -> np.ndarray:
         w, wn = 2 * np.pi * f_hz, 2 * np.pi * fn
@@ -207,8 +209,7 @@ def ringdown_extinction(
         if r_new > max(3.0 * rms_k, 0.1 * free):
             break
         k -= n
-    if k - n < lo:
-        return None
+    k = max(k, lo)  # the ring-down reaches back to the start: the arc went out at once
     coef, rms_k = _fit(x[k:hi], t[k:hi] - t[k], f_hz, fn, sigma)
     s_lo = max(lo, k - 2 * n)
     res = np.abs(x[s_lo:k] - predict(coef, t[s_lo:k] - t[k]))

@@ -646,15 +646,18 @@ def detect_extinction(
     rd = None
     if beat_check and q.segment_at(b - 1).start_idx <= lo:
         rd = ringdown_extinction(v, t, lo=lo, hi=b, f_hz=q.f_hz, fn_guess_hz=free_frequency_hz)
-    if rd is not None:
+    # where the sample-level harmonic refinement agrees with the ring-down (1.5 cycles), it
+    # is kept: it is the sharper of the two
+    agree = rd is not None and ref is not None and abs(rd.index - k_ext) <= 1.5 * n
+    if rd is not None and not agree:
         k_ext = rd.index
-        unc = 0.1 * q.cycle_s
+        unc = 0.25 * q.cycle_s
         ref = None
         method = (
             f"start of the open phase's free ring-down ({rd.free_frequency_hz:.1f} Hz, "
             "forced-plus-free fit)"
         )
-    elif beat_check:
+    elif beat_check and rd is None:
         k_beat = _beat_onset(q, phase, lo=max(a + int(n), lo), hi=b, n=n)
         if k_beat is not None and abs(k_beat - k_ext) > 2 * n:
             # on a shunt-compensated line the open phase rings at its own frequency once the
@@ -686,7 +689,11 @@ def detect_extinction(
     h_before = finite_median(tr.hratio[tr.burning]) if s.size else float("nan")
     h_after = finite_median(tr.hratio[kc - a :]) if kc - a < tr.hratio.size else float("nan")
     conf = 0.9
-    if np.isfinite(lvl_after) and lvl_after < level_min:
+    rings = rd is not None and (
+        free_frequency_hz is None or abs(rd.free_frequency_hz / free_frequency_hz - 1.0) < 0.1
+    )
+    if np.isfinite(lvl_after) and lvl_after < level_min and not rings:
+        # (a free oscillation at the line's natural frequency proves the phase is not clamped)
         return ExtinctionResult(
             None,
             True,
