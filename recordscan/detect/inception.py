@@ -249,6 +249,7 @@ def detect_inception(
         (V_LINE[p], voltage_fraction) for p in PHASES
     ]
     used = []
+    q.prefetch_phasors(role for role, _ in roles)
     for role, frac in roles:
         if q.values(role) is None:
             continue

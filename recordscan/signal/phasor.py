@@ -45,7 +45,7 @@ def sliding_window_sum(z: np.ndarray, length: float) -> np.ndarray:
     Parameters
     ----------
     z : numpy.ndarray
-        Real or complex samples.
+        Real or complex samples (a 2-D array: each row on its own, along the last axis).
     length : float
         Window length in samples (≥ 1). The oldest sample carries the fractional weight.
 
@@ -55,7 +55,7 @@ def sliding_window_sum(z: np.ndarray, length: float) -> np.ndarray:
         Same shape and kind as ``z``; NaN until the first full window.
     """
     z = np.asarray(z)
-    n = z.shape[0]
+    n = z.shape[-1]
     if length < 1:
         raise ValueError("window length must be at least one sample")
     n_full = int(np.floor(length + 1e-9))
@@ -63,17 +63,19 @@ def sliding_window_sum(z: np.ndarray, length: float) -> np.ndarray:
     if frac < 1e-9:
         frac = 0.0
     dtype = np.complex128 if np.iscomplexobj(z) else np.float64
-    out = np.full(n, np.nan, dtype=dtype)
+    out = np.full(z.shape, np.nan, dtype=dtype)
     first = n_full if frac > 0 else n_full - 1
     if n <= first:
         return out
-    c = np.empty(n + 1, dtype=dtype)
-    c[0] = 0
-    np.cumsum(z, out=c[1:])
+    c = np.empty((*z.shape[:-1], n + 1), dtype=dtype)
+    c[..., 0] = 0
+    np.cumsum(z, axis=-1, out=c[..., 1:])
     # out[k] = c[k+1] − c[k+1−n_full] (+ frac·z[k−n_full]) for k ≥ first
-    np.subtract(c[first + 1 :], c[first + 1 - n_full : n + 1 - n_full], out=out[first:])
+    np.subtract(
+        c[..., first + 1 :], c[..., first + 1 - n_full : n + 1 - n_full], out=out[..., first:]
+    )
     if frac > 0:
-        out[first:] += frac * z[first - n_full : n - n_full]
+        out[..., first:] += frac * z[..., first - n_full : n - n_full]
     return out
 
 
@@ -97,7 +99,7 @@ def full_cycle_phasor(
     Parameters
     ----------
     x : numpy.ndarray
-        Uniform samples.
+        Uniform samples (a 2-D array: one channel per row, the same instants).
     fs_hz : float
         Sample rate.
     f_hz : float
@@ -122,7 +124,7 @@ def full_cycle_phasor(
     k = (
         kernel
         if kernel is not None
-        else dft_kernel(x.shape[0], fs_hz=fs_hz, f_hz=harmonic * f_hz, t0_s=t0_s)
+        else dft_kernel(x.shape[-1], fs_hz=fs_hz, f_hz=harmonic * f_hz, t0_s=t0_s)
     )
     return (np.sqrt(2.0) / length) * sliding_window_sum(x * k, length)
 
