@@ -556,6 +556,15 @@ def detect_extinction(
         )
     warns: list[str] = []
     v = np.nan_to_num(q.values(role))
+    rd = None
+    lo_rd = max(a - int(np.ceil(n)), q.segment_at(a).start_idx)
+    if beat_check and q.segment_at(b - 1).start_idx <= lo_rd:
+        rd = ringdown_extinction(v, t, lo=lo_rd, hi=b, f_hz=q.f_hz, fn_guess_hz=free_frequency_hz)
+    # a clear free oscillation at the line's natural frequency: the phase is not clamped
+    # (overrides the bolted-fault guard below)
+    rings = rd is not None and (
+        free_frequency_hz is None or abs(rd.free_frequency_hz / free_frequency_hz - 1.0) < 0.1
+    )
     n_tail = int(3 * n)
     valid_idx = np.flatnonzero(valid)
     if valid_idx.size > 2 * n_tail:
@@ -643,9 +652,6 @@ def detect_extinction(
         gap_lo = float(t[seg_lo - 1]) if seg_lo > 0 else float(t[0])
         unc = max(unc, float(t[seg_lo]) - gap_lo)
         warns.append("extinction fell in a gap of the record; its instant is bounded by the gap")
-    rd = None
-    if beat_check and q.segment_at(b - 1).start_idx <= lo:
-        rd = ringdown_extinction(v, t, lo=lo, hi=b, f_hz=q.f_hz, fn_guess_hz=free_frequency_hz)
     # where the sample-level harmonic refinement agrees with the ring-down (1.5 cycles), it
     # is kept: it is the sharper of the two
     agree = rd is not None and ref is not None and abs(rd.index - k_ext) <= 1.5 * n
@@ -689,11 +695,7 @@ def detect_extinction(
     h_before = finite_median(tr.hratio[tr.burning]) if s.size else float("nan")
     h_after = finite_median(tr.hratio[kc - a :]) if kc - a < tr.hratio.size else float("nan")
     conf = 0.9
-    rings = rd is not None and (
-        free_frequency_hz is None or abs(rd.free_frequency_hz / free_frequency_hz - 1.0) < 0.1
-    )
     if np.isfinite(lvl_after) and lvl_after < level_min and not rings:
-        # (a free oscillation at the line's natural frequency proves the phase is not clamped)
         return ExtinctionResult(
             None,
             True,
