@@ -214,6 +214,11 @@ class Quantities:
     def _per_segment(
         self, x: np.ndarray, fn: Callable[[np.ndarray, float, float], np.ndarray], dtype: type
     ) -> np.ndarray:
+        if len(self.segments) == 1 and self.segments[0].n_samples == x.shape[0]:
+            # one segment over the whole record: its result is the array (no copy)
+            s = self.segments[0]
+            if x.shape[0] >= 2:
+                return np.asarray(fn(x, s.rate_hz, float(self.t_s[0])), dtype=dtype)
         out = np.full(x.shape[0], np.nan, dtype=dtype)
         for s in self.segments:
             part = x[s.start_idx : s.stop_idx]
@@ -266,6 +271,21 @@ class Quantities:
             return
         f = self.f_hz
         xs = np.stack([_finite(self.values(r)) for r in todo])
+        whole = len(self.segments) == 1 and self.segments[0].n_samples == xs.shape[1]
+        s = self.segments[0]
+        if whole and xs.shape[1] >= 2 and xs.shape[1] >= s.rate_hz / f + 1:
+            # one segment over the whole record: its result is the array (no copy)
+            out = full_cycle_phasor(
+                xs,
+                fs_hz=s.rate_hz,
+                f_hz=f,
+                t0_s=float(self.t_s[0]),
+                kernel=self._kernel(s.rate_hz, float(self.t_s[0]), xs.shape[1]),
+            )
+            out.setflags(write=False)
+            for j, r in enumerate(todo):
+                self._cache[(r, "phasor")] = out[j]
+            return
         out = np.full(xs.shape, np.nan, dtype=np.complex128)
         for s in self.segments:
             part = xs[:, s.start_idx : s.stop_idx]

@@ -63,10 +63,11 @@ def sliding_window_sum(z: np.ndarray, length: float) -> np.ndarray:
     if frac < 1e-9:
         frac = 0.0
     dtype = np.complex128 if np.iscomplexobj(z) else np.float64
-    out = np.full(z.shape, np.nan, dtype=dtype)
     first = n_full if frac > 0 else n_full - 1
     if n <= first:
-        return out
+        return np.full(z.shape, np.nan, dtype=dtype)
+    out = np.empty(z.shape, dtype=dtype)
+    out[..., :first] = np.nan
     c = np.empty((*z.shape[:-1], n + 1), dtype=dtype)
     c[..., 0] = 0
     np.cumsum(z, axis=-1, out=c[..., 1:])
@@ -126,7 +127,9 @@ def full_cycle_phasor(
         if kernel is not None
         else dft_kernel(x.shape[-1], fs_hz=fs_hz, f_hz=harmonic * f_hz, t0_s=t0_s)
     )
-    return (np.sqrt(2.0) / length) * sliding_window_sum(x * k, length)
+    out = sliding_window_sum(x * k, length)
+    out *= np.sqrt(2.0) / length
+    return out
 
 
 def half_cycle_phasor(x: np.ndarray, *, fs_hz: float, f_hz: float, t0_s: float = 0.0) -> np.ndarray:

@@ -72,11 +72,12 @@ def superimposed(x: np.ndarray, *, length: float, n_cycles: int = 1) -> np.ndarr
     delay = length * n_cycles
     m = int(np.floor(delay))
     frac = delay - m
-    out = np.full(x.shape[0], np.nan)
     first = m + (1 if frac > 1e-9 else 0)
     if x.shape[0] <= first:
-        return out
+        return np.full(x.shape[0], np.nan)
     n = x.shape[0]
+    out = np.empty(n)
+    out[:first] = np.nan
     delayed = (1.0 - frac) * x[first - m : n - m]
     if frac > 1e-9:
         delayed += frac * x[first - m - 1 : n - m - 1]
