@@ -68,6 +68,7 @@ def detect_restrikes(
     until_idx: int | None = None,
     excursion_factor: float = 2.0,
     min_recovery_cycles: float = 0.2,
+    settle_cycles: float = 2.5,
     h_on: float = 0.15,
     reset_ratio: float = 1.6,
 ) -> list[Event]:
@@ -87,6 +88,11 @@ def detect_restrikes(
         A recovery is ``|v|`` above this multiple of the local arc-voltage level.
     min_recovery_cycles : float
         Shortest recovery that counts.
+    settle_cycles : float
+        Collapses ending within this many cycles of the start of the trace (itself one
+        cycle after the arc start) are not counted: the open phase's switching transient
+        (far end's opening, travelling waves, a CVT's response) is still dying out. On the
+        simulated corpus 8 of the 9 collapses found there were spurious.
     h_on : float
         The arc signature (harmonic ratio of the trace) must reach this within 2.5 cycles
         after the collapse.
@@ -121,6 +127,8 @@ def detect_restrikes(
     for si, ei in zip(s, e, strict=True):
         if ei >= b - a:
             continue  # still recovered at the end: the final extinction, not a restrike
+        if ei < settle_cycles * n:
+            continue  # the switching transient after the pole opening, not a recovery
         hits = np.flatnonzero(exc[si:ei])
         if hits.size == 0:
             continue
@@ -179,7 +187,9 @@ def detect_restrikes(
                 phase=trace.phase,
             )
         )
-    out += _level_resets(record, trace, q, b, [e.t_s for e in out], ratio=reset_ratio)
+    out += _level_resets(
+        record, trace, q, b, [e.t_s for e in out], ratio=reset_ratio, settle_cycles=settle_cycles
+    )
     out.sort(key=lambda e: e.t_s)
     return out
 
@@ -192,6 +202,7 @@ def _level_resets(
     known_s: list[float],
     *,
     ratio: float,
+    settle_cycles: float,
 ) -> list[Event]:
     """Restrikes seen as a reset of the arc-voltage level within a burning period.
 
@@ -199,8 +210,9 @@ def _level_resets(
     gap recovers for a fraction of a cycle and breaks down again, the new arc is short and
     its voltage starts low again. The peak ``|v|`` over the cycle before such an instant is
     ``ratio`` times or more the peak over the cycle after it (skipping a quarter cycle), and
-    the arc signature is present on both sides. The instant is the largest one-sample fall of
-    ``|v|`` in the half cycle before the reset point.
+    the arc signature is present on both sides; the cycle before it lies after the first
+    ``settle_cycles`` of the trace (switching transient). The instant is the largest
+    one-sample fall of ``|v|`` in the half cycle before the reset point.
     """
     role = V_LINE[trace.phase]
     a = trace.start_idx
@@ -223,7 +235,7 @@ def _level_resets(
     t = record.t_s
     last = -(10**9)
     for k in cand:
-        if k < 2 * nc or k + 2 * nc >= m or k - last < 2 * nc:
+        if k < max(2 * nc, (settle_cycles + 1) * n) or k + 2 * nc >= m or k - last < 2 * nc:
             continue
         if not (np.any(burning[k - 2 * nc : k - nc]) and np.any(burning[k + nc : k + 2 * nc])):
             continue
