@@ -18,7 +18,9 @@ def runs(mask: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     m = np.asarray(mask, dtype=bool)
     if m.size == 0:
         return np.empty(0, dtype=np.int64), np.empty(0, dtype=np.int64)
-    d = np.diff(np.concatenate(([0], m.view(np.int8), [0])))
+    padded = np.zeros(m.size + 2, dtype=np.int8)
+    padded[1:-1] = m.reshape(-1)
+    d = np.diff(padded)
     return np.flatnonzero(d == 1), np.flatnonzero(d == -1)
 
 
