@@ -298,6 +298,11 @@ def run_jobs(
             if progress:
                 progress(1)
         return
+    # load the analysis (and scipy) once here so forked workers inherit it instead of each
+    # importing it again
+    import recordscan.analysis
+    import recordscan.io  # noqa: F401
+
     with ProcessPoolExecutor(max_workers=n_workers) as pool:
         futures = [pool.submit(scan_one, job, outputs) for job in jobs]
         for job, fut in zip(jobs, futures, strict=True):

@@ -244,18 +244,19 @@ def _sha_of(path: str) -> str:
 
 
 def test_read_in_forked_worker_after_parent_read(tmp_path: Path) -> None:
-    # the SHA-256 runs on a background thread; a forked child (multiprocessing on Linux)
-    # does not inherit that thread and must start its own instead of waiting forever
+    # a read in a forked child (multiprocessing on Linux, as scan --jobs does) after a read in
+    # the parent must work and hash the same bytes (an earlier reader hashed on a thread
+    # that a forked child did not inherit)
     import hashlib
     import multiprocessing
     import warnings
 
     if "fork" not in multiprocessing.get_all_start_methods():
         pytest.fail("this check needs the fork start method (Linux)")
-    t = np.arange(50_000) / 1e4  # big enough for the background hash
+    t = np.arange(50_000) / 1e4
     files = write(Record(t_s=t, analog=(AnalogChannel("IA", np.sin(t), unit="A"),)), tmp_path / "f")
     expected = hashlib.sha256(files[0].read_bytes() + files[1].read_bytes()).hexdigest()
-    assert _sha_of(str(files[0])) == expected  # starts the thread in this process
+    assert _sha_of(str(files[0])) == expected
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", DeprecationWarning)  # fork with threads (3.12+)
         with multiprocessing.get_context("fork").Pool(1) as pool:
