@@ -789,7 +789,10 @@ def analyse(
     if full is not record:
         inc = refine_inception(full, inc)
         openings = {k: refine_opening(full, o) for k, o in openings.items()}
-        restrikes = [refine_restrike(full, e) for e in restrikes]
+        # (a reset of the arc-voltage level is placed on a zero crossing, not a collapse)
+        restrikes = [
+            e if "reset_ratio" in e.params else refine_restrike(full, e) for e in restrikes
+        ]
     confs = [cls.confidence, inc.confidence, local.event.confidence]
     if ext is not None and ext.extinction is not None:
         confs.append(ext.extinction.confidence)

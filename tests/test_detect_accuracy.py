@@ -127,6 +127,7 @@ class Score:
     rs_raw: Counter = field(default_factory=Counter)
     rs_err_ms: list[float] = field(default_factory=list)
     rs_gap_cycles: list[float] = field(default_factory=list)
+    rs_err_raw_ms: list[float] = field(default_factory=list)
     fails: list[str] = field(default_factory=list)
     corpus: Counter = field(default_factory=Counter)
 
@@ -221,6 +222,7 @@ def score(rows: list[tuple]) -> Score:
         s.rs_obs["fp"] += sum(1 for i in range(len(got)) if i not in matched_raw)
         s.rs_obs["neither"] += len(matched_raw - matched_obs)
         s.rs_err_ms += [(got[i] - obs[j]) * 1e3 for i, j in m_obs]
+        s.rs_err_raw_ms += [(got[i] - raw[j]) * 1e3 for i, j in m_raw]
         if len(m_obs) < len(obs) or len(got) > len(matched_raw):
             s.fails.append(
                 f"{sc.name}: restrikes found {[round(g, 4) for g in got]} observable "
@@ -355,7 +357,13 @@ def write_report(out_dir: Path, s: Score, *, n: int, seed: int) -> Path:
         "",
         f"Detections matching a truth restrike that is not observable: {s.rs_obs['neither']} "
         "(counted neither way in the observable row). A detection matches a truth restrike "
-        "within one cycle.",
+        "within one cycle; |time error| of the matched detections (raw): median "
+        + (
+            f"{np.median(np.abs(s.rs_err_raw_ms)):.1f} ms, 95th percentile "
+            f"{np.percentile(np.abs(s.rs_err_raw_ms), 95):.1f} ms."
+            if s.rs_err_raw_ms
+            else "— (none matched)."
+        ),
         "",
         "## Event classification (rows: truth, columns: found)",
         "",

@@ -194,6 +194,22 @@ def detect_restrikes(
     return out
 
 
+def _reset_crossing(vs: np.ndarray, k: int, nc: int) -> int:
+    """The zero crossing of ``vs`` near ``k`` with the largest fall of the half-cycle peak."""
+    lo, hi = max(k - 2 * nc, 0), min(k + 2 * nc, vs.shape[0])
+    seg = vs[lo:hi]
+    z = np.flatnonzero(np.signbit(seg[:-1]) != np.signbit(seg[1:])) + 1
+    best, best_r = k, 0.0
+    for i in range(1, z.size - 1):
+        if abs(lo + int(z[i]) - k) > nc:
+            continue
+        before = float(np.max(np.abs(seg[z[i - 1] : z[i]])))
+        after = float(np.max(np.abs(seg[z[i] : z[i + 1]])))
+        if after > 0 and before / after > best_r:
+            best, best_r = lo + int(z[i]), before / after
+    return best
+
+
 def _level_resets(
     record: Record,
     trace: ArcTrace,
@@ -212,16 +228,22 @@ def _level_resets(
     ``ratio`` times or more the peak over the cycle after it (skipping a quarter cycle), and
     the arc signature is present on both sides; the cycle before it lies after the first
     ``settle_cycles`` of the trace (switching transient). The instant is the largest
-    one-sample fall of ``|v|`` in the half cycle before the reset point.
+    The arc goes out at a current zero, where a long (resistive) arc's voltage changes sign:
+    the instant is the zero crossing of the voltage, within a cycle of the reset point,
+    between the half-cycle loops whose peak ratio (before / after) is the largest.
     """
     role = V_LINE[trace.phase]
     a = trace.start_idx
     n = trace.n_cycle
     nc = max(4, round(n))
-    v = np.abs(np.nan_to_num(q.values(role)[a:b]))
+    raw = np.nan_to_num(q.values(role)[a:b])
+    v = np.abs(raw)
     m = v.shape[0]
     if m < 6 * nc:
         return []
+    # zero crossings of a lightly smoothed copy (1/8 cycle, centred) place the current zero
+    w8 = max(1, nc // 8)
+    vs = np.convolve(raw, np.ones(w8) / w8, mode="same")
     burning = trace.burning[:m]
     # causal and anti-causal one-cycle peaks
     back = running_max(v, nc)  # max over [k - nc + 1, k]
@@ -239,9 +261,7 @@ def _level_resets(
             continue
         if not (np.any(burning[k - 2 * nc : k - nc]) and np.any(burning[k + nc : k + 2 * nc])):
             continue
-        lo = max(k - nc // 2, 1)
-        drops = v[lo - 1 : k] - v[lo : k + 1]
-        k_rel = lo + int(np.argmax(drops))
+        k_rel = _reset_crossing(vs, k, nc)
         t_k = float(t[a + k_rel])
         last = k
         if any(abs(t_k - x) < 1.0 / q.f_hz for x in known_s):
