@@ -191,6 +191,12 @@ def test_indirect_fit_accuracy() -> None:
     k = 0
     while sum(r["ext"] is not None for r in rows) < N_EXTINCT and k < MAX_DRAWS:
         rows.append(_event(k))
+        r = rows[-1]
+        print(
+            f"{k:3d} v {r['v']:5.1f} fit {r.get('v_fit', float('nan')):6.2f}  ext "
+            f"{r['ext']} fit {r.get('ext_fit')}  {r['fit_s']:.1f} s",
+            flush=True,
+        )
         k += 1
     ext_rows = [r for r in rows if r["ext"] is not None]
     cens = [r for r in rows if r["ext"] is None]
