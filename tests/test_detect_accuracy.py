@@ -128,6 +128,8 @@ class Score:
     rs_err_ms: list[float] = field(default_factory=list)
     rs_gap_cycles: list[float] = field(default_factory=list)
     rs_err_raw_ms: list[float] = field(default_factory=list)
+    #: extinctions less than three cycles before the end of the observation: n, failed
+    ext_late: Counter = field(default_factory=Counter)
     fails: list[str] = field(default_factory=list)
     corpus: Counter = field(default_factory=Counter)
 
@@ -187,6 +189,13 @@ def score(rows: list[tuple]) -> Score:
             f"{line.length_m / 1e3:.0f} km]"
         )
         if te is not None:
+            rc = (truth.get("reclose_s") or {}).get("local")
+            end_s = float(rc) if rc is not None else float(rec.t_s[-1])
+            late = (end_s - te) * f < 3.0
+            s.ext_late["n"] += late
+            s.ext_late["fail"] += late and (
+                a.extinction_s is None or abs(a.extinction_s - te) * f > 1.0
+            )
             if a.extinction_s is None:
                 s.ext_missing += 1
                 s.ext_missing_group.append(group)
@@ -321,7 +330,9 @@ def write_report(out_dir: Path, s: Score, *, n: int, seed: int) -> Path:
         f"Events whose truth has a final extinction: {tot}. Within one power-frequency cycle: "
         f"**{ok}/{tot} = {ok / max(tot, 1):.1%}** (floor 95 %). Missed (censored although "
         f"the arc went out): {s.ext_missing}; reported where the arc still burned at the "
-        f"end of the observation: {s.ext_false}.",
+        f"end of the observation: {s.ext_false}. Extinctions less than three cycles before the "
+        f"end of the observation (reclose or record end): {s.ext_late['n']}, of which "
+        f"{s.ext_late['fail']} failed.",
         "",
         "| lines | within one cycle |",
         "| --- | --- |",
