@@ -264,7 +264,8 @@ def _level_resets(
         k_rel = _reset_crossing(vs, k, nc)
         t_k = float(t[a + k_rel])
         last = k
-        if any(abs(t_k - x) < 1.0 / q.f_hz for x in known_s):
+        if any(abs(t_k - x) < 2.5 / q.f_hz for x in known_s):
+            # the same restrike, already found as the collapse of its recovery
             continue
         v_pk = float(np.max(v[max(k_rel - nc // 4, 0) : k_rel + 1]))
         dt = 1.0 / q.segment_at(a + k_rel).rate_hz
