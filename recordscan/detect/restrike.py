@@ -230,7 +230,9 @@ def _level_resets(
     ``settle_cycles`` of the trace (switching transient). The instant is the largest
     The arc goes out at a current zero, where a long (resistive) arc's voltage changes sign:
     the instant is the zero crossing of the voltage, within a cycle of the reset point,
-    between the half-cycle loops whose peak ratio (before / after) is the largest.
+    between the half-cycle loops whose peak ratio (before / after) is the largest. The
+    restrike voltage reported is the largest ``|v|`` in the quarter cycle after that zero
+    (the re-ignition peak).
     """
     role = V_LINE[trace.phase]
     a = trace.start_idx
@@ -267,7 +269,8 @@ def _level_resets(
         if any(abs(t_k - x) < 2.5 / q.f_hz for x in known_s):
             # the same restrike, already found as the collapse of its recovery
             continue
-        v_pk = float(np.max(v[max(k_rel - nc // 4, 0) : k_rel + 1]))
+        # the re-ignition peak in the quarter cycle after the current zero
+        v_pk = float(np.max(v[k_rel : min(k_rel + nc // 4 + 1, m)]))
         dt = 1.0 / q.segment_at(a + k_rel).rate_hz
         out.append(
             Event(
