@@ -759,7 +759,7 @@ def _from_arc_current(
         return ExtinctionResult(None, True, float(until_s), start_s)
     sigma = q.noise(ARC_CURRENT)
     peak = float(np.percentile(np.abs(seg), 99))
-    thr = max(8.0 * sigma, 0.02 * peak, 1e-6)
+    thr = max(5.0 * sigma, 0.02 * peak, 1e-6)
     active = np.abs(seg) > thr
     observed = float(t[k1 - 1])
     if not np.any(active):
