@@ -82,6 +82,63 @@ def _fit(
     return coef, float(np.sqrt(np.mean(r * r)))
 
 
+class _Columns:
+    """The five model columns over ``[lo, hi)`` for fixed ``f_n`` and ``σ`` (computed once).
+
+    A fit over ``[k, e)`` rescales the free columns to 1 at ``t[k]`` (the span of the
+    columns, and so the fit, is the same as with the damping referenced at ``t[k]``).
+    """
+
+    def __init__(
+        self, t: np.ndarray, lo: int, hi: int, f_hz: float, fn_hz: float, sigma: float
+    ) -> None:
+        self.lo, self.t, self.sigma = lo, t, sigma
+        self.t_ref = float(t[hi - 1])
+        tt = t[lo:hi] - self.t_ref
+        w, wn = 2 * np.pi * f_hz, 2 * np.pi * fn_hz
+        self.cols = np.stack(
+            [np.ones_like(tt), np.cos(w * tt), np.sin(w * tt), np.cos(wn * tt), np.sin(wn * tt)],
+            axis=1,
+        )
+        self.log_damp = -sigma * tt
+
+    def rows(self, a: int, b: int, k: int) -> np.ndarray:
+        """Rows ``[a, b)`` with the free columns damped from ``t[k]`` (value 1 there)."""
+        out = self.cols[a - self.lo : b - self.lo].copy()
+        d = np.exp(self.log_damp[a - self.lo : b - self.lo] - self.log_damp[k - self.lo])
+        out[:, 3:] *= d[:, None]
+        return out
+
+    def prepare_suffix(self, x: np.ndarray, hi: int) -> None:
+        """Suffix sums of the normal equations over ``[k, hi)`` for every ``k`` (one pass)."""
+        c = self.cols.copy()
+        c[:, 3:] *= np.exp(self.log_damp)[:, None]  # damped from t_ref: grows backwards
+        xs = x[self.lo : hi]
+        self._g = np.cumsum((c[:, :, None] * c[:, None, :])[::-1], axis=0)[::-1]
+        self._h = np.cumsum((c * xs[:, None])[::-1], axis=0)[::-1]
+        self._xx = np.cumsum((xs * xs)[::-1])[::-1]
+        self._hi = hi
+
+    def fit(self, x: np.ndarray, k: int, e: int) -> tuple[np.ndarray, float]:
+        """Least-squares fit over ``[k, e)`` in the frame of :meth:`rows` (``…, k)``)."""
+        if e == getattr(self, "_hi", None):
+            j = k - self.lo
+            d = np.ones(5)
+            d[3:] = np.exp(-self.log_damp[j])
+            g = self._g[j] * d[:, None] * d[None, :]
+            h = self._h[j] * d
+            try:
+                coef = np.linalg.solve(g, h)
+                ss = max(float(self._xx[j] - coef @ h), 0.0)
+                return coef, float(np.sqrt(ss / (e - k)))
+            except np.linalg.LinAlgError:
+                pass
+        a = self.rows(k, e, k)
+        coef, *_ = np.linalg.lstsq(a, x[k:e], rcond=None)
+        r = x[k:e] - a @ coef
+        return coef, float(np.sqrt(np.mean(r * r)))
+
+
 def _golden(fun, lo: float, hi: float, tol: float) -> float:  # type: ignore[no-untyped-def]
     g = (np.sqrt(5.0) - 1.0) / 2.0
     a, b = lo, hi
@@ -125,9 +182,9 @@ def _tail_fit(
         lambda fr: _fit(x, tt, f_hz, fr, 0.0)[1],
         max(0.3 * f_hz, f_pk - half),
         min(1.7 * f_hz, f_pk + half),
-        1e-3,
+        5e-3,
     )
-    sigma = _golden(lambda s: _fit(x, tt, f_hz, fn, s)[1], 0.0, 20.0, 0.02)
+    sigma = _golden(lambda s: _fit(x, tt, f_hz, fn, s)[1], 0.0, 20.0, 0.05)
     return fn, sigma
 
 
@@ -191,28 +248,20 @@ def ringdown_extinction(
     if abs(fn - f_hz) < 0.02 * f_hz:
         return None  # not separable from the forced component over the fitted stretch
 
-    def predict(coef: np.ndarray, tp: np.ndarray) -> np.ndarray:
-        w, wn = 2 * np.pi * f_hz, 2 * np.pi * fn
-        damp = np.exp(-sigma * tp)
-        return (
-            coef[0]
-            + coef[1] * np.cos(w * tp)
-            + coef[2] * np.sin(w * tp)
-            + damp * (coef[3] * np.cos(wn * tp) + coef[4] * np.sin(wn * tp))
-        )
-
+    m = _Columns(t, lo, hi, f_hz, fn, sigma)
+    m.prepare_suffix(x, hi)
     # grow the recovered stretch backwards while the earlier cycle follows the model
     while k - n >= lo:
-        coef, rms_k = _fit(x[k:hi], t[k:hi] - t[k], f_hz, fn, sigma)
-        tp = t[k - n : k] - t[k]
-        r_new = float(np.sqrt(np.mean((x[k - n : k] - predict(coef, tp)) ** 2)))
+        coef, rms_k = m.fit(x, k, hi)
+        pred = m.rows(k - n, k, k) @ coef
+        r_new = float(np.sqrt(np.mean((x[k - n : k] - pred) ** 2)))
         if r_new > max(3.0 * rms_k, 0.1 * free):
             break
         k -= n
     k = max(k, lo)  # the ring-down reaches back to the start: the arc went out at once
-    coef, rms_k = _fit(x[k:hi], t[k:hi] - t[k], f_hz, fn, sigma)
+    coef, rms_k = m.fit(x, k, hi)
     s_lo = max(lo, k - 2 * n)
-    res = np.abs(x[s_lo:k] - predict(coef, t[s_lo:k] - t[k]))
+    res = np.abs(x[s_lo:k] - m.rows(s_lo, k, k) @ coef)
     big = np.flatnonzero(res > max(4.0 * rms_k, 0.15 * free))
     best = s_lo + int(big[-1]) + 1 if big.size else None
     idx = k if best is None else best
