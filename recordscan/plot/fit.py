@@ -31,7 +31,11 @@ def plot_fit(result: ArcFitResult) -> Figure:
         color="#b2182b",
         lw=0.8,
         ls="--",
-        label="model driven by the measured current",
+        label=(
+            "model driven by the measured current"
+            if result.method == "direct"
+            else "open-phase circuit with the fitted arc"
+        ),
     )
     um = np.asarray(c["u_measured_v"]) * v_fac
     lim = 1.3 * float(np.nanpercentile(np.abs(um), 99.5))
@@ -47,7 +51,9 @@ def plot_fit(result: ArcFitResult) -> Figure:
     )
     ax[0].set_title(title, fontsize=8.5)
     ax[1].plot(t, c["i_a"], color="#2166ac", lw=0.8)
-    ax[1].set_ylabel("arc current [A]")
+    ax[1].set_ylabel(
+        "arc current [A]" if result.method == "direct" else "arc current, estimated [A]"
+    )
     gm = np.asarray(c["g_measured_siemens"]) * 1e3
     ax[2].plot(t, gm, color="#4d4d4d", lw=0.6, label="measured i/u")
     ax[2].plot(
