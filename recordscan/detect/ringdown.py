@@ -29,6 +29,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.signal import butter, sosfiltfilt
 
+from recordscan.signal.spectral import golden_min
+
 __all__ = ["RingdownFit", "ringdown_extinction"]
 
 
@@ -139,23 +141,6 @@ class _Columns:
         return coef, float(np.sqrt(np.mean(r * r)))
 
 
-def _golden(fun, lo: float, hi: float, tol: float) -> float:  # type: ignore[no-untyped-def]
-    g = (np.sqrt(5.0) - 1.0) / 2.0
-    a, b = lo, hi
-    c, d = b - g * (b - a), a + g * (b - a)
-    fc, fd = fun(c), fun(d)
-    while b - a > tol:
-        if fc < fd:
-            b, d, fd = d, c, fc
-            c = b - g * (b - a)
-            fc = fun(c)
-        else:
-            a, c, fc = c, d, fd
-            d = a + g * (b - a)
-            fd = fun(d)
-    return 0.5 * (a + b)
-
-
 def _tail_fit(
     x: np.ndarray, tt: np.ndarray, f_hz: float, fn_guess_hz: float | None
 ) -> tuple[float, float] | None:
@@ -178,13 +163,13 @@ def _tail_fit(
     f_pk = float(freqs[band][np.argmax(spec[band])])
     dur = float(tt[-1] - tt[0])
     half = max(2.0 / dur, 4 * fs / n_fft)
-    fn = _golden(
+    fn = golden_min(
         lambda fr: _fit(x, tt, f_hz, fr, 0.0)[1],
         max(0.3 * f_hz, f_pk - half),
         min(1.7 * f_hz, f_pk + half),
-        5e-3,
+        tol=5e-3,
     )
-    sigma = _golden(lambda s: _fit(x, tt, f_hz, fn, s)[1], 0.0, 20.0, 0.05)
+    sigma = golden_min(lambda s: _fit(x, tt, f_hz, fn, s)[1], 0.0, 20.0, tol=0.05)
     return fn, sigma
 
 

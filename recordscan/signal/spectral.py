@@ -215,7 +215,7 @@ class BeatFit:
     residual_rms: float
 
 
-def _golden(fun: Callable[[float], float], lo: float, hi: float, *, tol: float) -> float:
+def golden_min(fun: Callable[[float], float], lo: float, hi: float, *, tol: float) -> float:
     """Minimum of a unimodal function on [lo, hi] by golden-section search."""
     g = (np.sqrt(5.0) - 1.0) / 2.0
     a, b = lo, hi
@@ -319,7 +319,7 @@ def fit_beat(
     f_guess = float(freqs[band][np.argmax(spec[band])])
     step = max(fs_hz / n_fft * 4, 1.0 / dur)
     lo, hi = max(0.3 * f_hz, f_guess - step), min(1.7 * f_hz, f_guess + step)
-    fn = _golden(lambda fr: _ls_fit(x, t, [f_hz, fr], fixed=fixed)[1], lo, hi, tol=0.01)
+    fn = golden_min(lambda fr: _ls_fit(x, t, [f_hz, fr], fixed=fixed)[1], lo, hi, tol=0.01)
     coef2, res2 = _ls_fit(x, t, [f_hz, fn], fixed=fixed)
     forced2 = float(np.hypot(coef2[1], coef2[2]) / np.sqrt(2.0))
     free2 = float(np.hypot(coef2[3], coef2[4]) / np.sqrt(2.0))
