@@ -306,3 +306,35 @@ def test_fit_figure_draws_indirect_curves(event: object) -> None:
     import matplotlib.pyplot as plt
 
     plt.close(fig)
+
+
+def test_fit_command_attaches_the_fit_to_a_stored_record(tmp_path: Path) -> None:
+    """scan --db stores the record; fit --db attaches the secondary-arc fit; an unknown
+    record is refused with a one-line hint (exit 2)."""
+    import subprocess
+    import sys
+
+    root = Path(__file__).resolve().parents[1]
+    staged = root / "sample_records" / "CD345-20261020-1010-staged.cfg"
+    db = tmp_path / "arcs.sqlite"
+
+    def run(*args: str) -> subprocess.CompletedProcess[str]:
+        return subprocess.run(
+            [sys.executable, "-m", "recordscan.cli", *args],
+            cwd=root,
+            capture_output=True,
+            text=True,
+            timeout=300,
+        )
+
+    refused = run("fit", str(staged), "--db", str(db))
+    assert refused.returncode == 2 and "store the record first" in refused.stderr
+    assert refused.stderr.strip().count("\n") == 0
+    assert run("scan", str(staged), "--db", str(db)).returncode == 0
+    ok = run("fit", str(staged), "--db", str(db))
+    assert ok.returncode == 0, ok.stderr
+    from recordscan.fleet.store import open_store
+
+    with open_store(str(db)) as store:
+        fits = store.fits(None)
+    assert len(fits) == 1

@@ -48,6 +48,15 @@ from recordscan.cli.common import CAUTION, atomic_write_bytes, to_json_text
 @click.option("--profile", type=click.Path(dir_okay=False), help="Recorder profile.")
 @click.option("--json", "as_json", is_flag=True, help="Print JSON (one object per period).")
 @click.option("--plot", "plot_dir", type=click.Path(file_okay=False), help="Write figures here.")
+@click.option(
+    "--db",
+    "db_url",
+    is_flag=False,
+    flag_value="",
+    default=None,
+    help="Attach the secondary-arc fit to the record in the arc-parameter database "
+    "(path or URL; bare --db = default). Store the record first with scan --db.",
+)
 def fit(
     record_path: str,
     line_path: str | None,
@@ -59,6 +68,7 @@ def fit(
     profile: str | None,
     as_json: bool,
     plot_dir: str | None,
+    db_url: str | None,
 ) -> None:
     """Back-calculate arc-model parameters from RECORD."""
     from recordscan.fit import DirectFitOptions, IndirectFitOptions, fit_record
@@ -107,5 +117,23 @@ def fit(
         )
         for f in r.flags:
             click.echo(f"  note: {f}")
+    if db_url is not None:
+        from recordscan.fleet.store import open_store
+
+        keep = [r for r in results if r.period == "secondary"] or results[-1:]
+        from recordscan.errors import StoreError
+
+        with open_store(db_url or None) as store:
+            try:
+                for r in keep:
+                    store.add_fit(record.provenance.sha256, r.to_dict())
+            except StoreError as exc:
+                raise StoreError(
+                    f"{exc}; store the record first: recordscan scan {record_path} --db …"
+                ) from None
+            if not as_json:
+                click.echo(
+                    f"stored the {keep[0].method} {keep[0].period}-arc fit in {store.url_display}"
+                )
     if not as_json:
         click.echo(CAUTION)
