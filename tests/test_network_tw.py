@@ -129,7 +129,8 @@ def test_fault_close_to_an_end_keeps_the_closed_form() -> None:
 
 
 def test_lossy_bergeron_steady_state_is_its_ladder_phasor() -> None:
-    # The lumped-loss Bergeron companion (Dommel, EMTP Theory Book, 1992, 4.2.2.4) is the
+    # The lumped-loss Bergeron companion (after Dommel, IEEE Trans. PAS-88(4), 1969; loss
+    # placement from memory) is the
     # exact time-domain form of R/4 – lossless half – R/2 – lossless half – R/4. Started
     # from the phasor solution of that ladder (ABCD chain, derived), a loaded line must stay
     # in its steady state: the first and the tenth cycle have the same phasors.

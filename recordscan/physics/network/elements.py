@@ -21,7 +21,9 @@ shunt C    2C/dt                       −G        −I
 
 A transposed line can also be a travelling-wave (Bergeron) segment: lossless propagation of
 the three modes of the orthonormal Clarke transformation with the series resistance lumped
-as R/4, R/2, R/4 (H. W. Dommel, *EMTP Theory Book*, 2nd ed., 1992, section 4.2.2.4).
+as R/4, R/2, R/4 (after H. W. Dommel, "Digital computer solution of electromagnetic
+transients in single- and multiphase networks", IEEE Trans. PAS-88(4), 1969; the placement
+of the losses from memory).
 """
 
 from __future__ import annotations
