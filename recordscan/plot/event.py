@@ -228,10 +228,16 @@ def plot_open_phase(
     lo = max(float(record.t_s[0]), t0 - margin_s)
     hi = min(float(record.t_s[-1]), t1 + margin_s + 0.1)
     ax.set_xlim(lo, hi)
-    sel = (record.t_s >= lo) & (record.t_s <= hi)
+    # scale to the dead time (arc voltage and recovery voltage are a few per cent of the
+    # phase voltage); the pre-fault and reclosed voltages run off the axis
+    cycle = 1.0 / record.frequency_hz if record.frequency_hz > 0 else 0.02
+    dead_end = result.get("reclose_s") or result.get("observed_until_s") or hi
+    sel = (record.t_s >= t0 + cycle) & (record.t_s <= dead_end - 0.25 * cycle)
+    if not np.any(sel):
+        sel = (record.t_s >= lo) & (record.t_s <= hi)
     if np.any(sel):
         peak = float(np.nanmax(np.abs(y[sel]))) * v_fac
-        ax.set_ylim(-1.15 * peak, 1.35 * peak)
+        ax.set_ylim(-1.3 * peak, 1.9 * peak)
     ax.set_ylabel(f"open-phase voltage [{v_unit}]")
     ax.set_xlabel("time from first sample [s]")
     ax.set_title(f"Opened phase {ph}: secondary arc and recovery voltage", fontsize=10)
