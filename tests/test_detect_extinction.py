@@ -166,26 +166,26 @@ def _faint_trace(*, n: int, j_end: int, level: float, seed: int = 3) -> np.ndarr
 
 @pytest.mark.parametrize("n", [16, 40, 167])  # 960 Hz, 2400 Hz, 10 kHz at 60 Hz
 def test_faint_signature_end_follows_a_fading_arc(n: int) -> None:
-    from recordscan.detect.secondary_arc import _weak_signature_end
+    from recordscan.detect.ringdown import faint_signature_end
 
     j0, j_end = 20 * n, 22 * n + n // 3  # the ring-down fit started 2.3 cycles too early
     h = _faint_trace(n=n, j_end=j_end, level=0.015)
-    got = _weak_signature_end(h, j0, float(n))
+    got = faint_signature_end(h, j0, float(n))
     assert got is not None
     # half a cycle after the last significant sample; isolated blips later do not extend it
     assert got == j_end + n // 2
 
 
 def test_faint_signature_end_needs_a_faint_steady_signature() -> None:
-    from recordscan.detect.secondary_arc import _weak_signature_end
+    from recordscan.detect.ringdown import faint_signature_end
 
     n = 40
     j0, j_end = 20 * n, 22 * n
     # a clear recovery before the ring-down start: nothing to extend
     h = _faint_trace(n=n, j_end=j_end, level=0.015)
     h[j0 - n : j0] = 0.0
-    assert _weak_signature_end(h, j0, float(n)) is None
+    assert faint_signature_end(h, j0, float(n)) is None
     # a ratio of a few per cent is a transient (CVT, switching), not a fading arc's trace
-    assert _weak_signature_end(_faint_trace(n=n, j_end=j_end, level=0.05), j0, float(n)) is None
+    assert faint_signature_end(_faint_trace(n=n, j_end=j_end, level=0.05), j0, float(n)) is None
     # a signature that stops at the ring-down start: no move
-    assert _weak_signature_end(_faint_trace(n=n, j_end=j0, level=0.015), j0, float(n)) is None
+    assert faint_signature_end(_faint_trace(n=n, j_end=j0, level=0.015), j0, float(n)) is None

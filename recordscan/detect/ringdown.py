@@ -31,7 +31,7 @@ from scipy.signal import butter, sosfiltfilt
 
 from recordscan.signal.spectral import golden_min
 
-__all__ = ["RingdownFit", "ringdown_extinction"]
+__all__ = ["RingdownFit", "faint_signature_end", "ringdown_extinction"]
 
 
 @dataclass(frozen=True)
@@ -260,3 +260,61 @@ def ringdown_extinction(
         free_peak_v=float(np.hypot(coef[3], coef[4])),
         residual_rms_v=rms,
     )
+
+
+def faint_signature_end(
+    h: np.ndarray,
+    j0: int,
+    n: float,
+    *,
+    h_max: float = 0.03,
+    frac: float = 0.8,
+    span: float = 4.0,
+) -> int | None:
+    """End of a faint arc signature that runs on past the ring-down's start ``j0``, or None.
+
+    Parameters
+    ----------
+    h : numpy.ndarray
+        Noise-corrected harmonic ratio of the open phase (one value per sample of the trace).
+    j0 : int
+        Index into ``h`` of the ring-down start.
+    n : float
+        Samples per power-frequency cycle.
+    h_max, frac, span : float
+        Bound on the faint ratio, share of significant samples, longest run (cycles).
+
+    Returns
+    -------
+    int or None
+        Index into ``h`` of the extinction, or None when no faint signature runs on.
+
+    Notes
+    -----
+    A long arc on a compensated line fades out: its resistance grows over several cycles and
+    the open phase already follows the recovery (forced-plus-free) waveform while the arc
+    still conducts a little. What the terminal voltage still shows is a faint but significant
+    harmonic ratio (``h > 0`` after the noise correction of
+    :func:`recordscan.detect.secondary_arc.arc_trace`, every value below ``h_max``) that
+    lasts to the arc's end. Required: a significant ratio over the whole cycle before ``j0``;
+    then the last significant sample within ``span`` cycles after ``j0`` such that at least
+    ``frac`` of the samples from ``j0`` to it are significant. The answer (trace index) is
+    half a cycle after that sample: the faint signature of the last loops falls below the
+    noise significance before the causal window has passed them (on the simulated corpus the
+    last significant sample lies 0.2–1.3 cycles before the simulator's extinction; the bound
+    and the offset are our choices, see docs/accuracy/scan.md).
+    """
+    w = max(1, round(n))
+    if j0 - w < 0 or j0 >= h.shape[0]:
+        return None
+    pos = np.isfinite(h) & (h > 0.0)
+    if pos[j0 - w : j0].mean() < 0.9:
+        return None
+    seg = pos[j0 : min(j0 + int(span * n), h.shape[0])]
+    ok = seg & (np.cumsum(seg) / np.arange(1, seg.size + 1) >= frac)
+    if not ok.any():
+        return None
+    je = int(np.flatnonzero(ok)[-1]) + 1
+    if not np.all(np.nan_to_num(h[j0 - w : j0 + je]) < h_max):
+        return None
+    return j0 + je + w // 2

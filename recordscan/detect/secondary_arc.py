@@ -36,7 +36,7 @@ from recordscan.core.events import Event, Evidence
 from recordscan.core.record import Record
 from recordscan.core.roles import ARC_CURRENT, PHASES, V_LINE
 from recordscan.detect._base import Quantities, finite_median, where
-from recordscan.detect.ringdown import ringdown_extinction
+from recordscan.detect.ringdown import faint_signature_end, ringdown_extinction
 from recordscan.errors import DetectionError
 from recordscan.signal.charfunc import robust_scale, step_score
 from recordscan.signal.filters import running_max
@@ -295,45 +295,6 @@ def _beat_onset(
     quiet = np.flatnonzero(c[: start + 1] <= max(2.0 * base, thr / 4))
     onset = int(quiet[-1]) + 1 if quiet.size else start
     return lo + max(min(onset, start), 0)
-
-
-def _weak_signature_end(
-    h: np.ndarray,
-    j0: int,
-    n: float,
-    *,
-    h_max: float = 0.03,
-    frac: float = 0.8,
-    span: float = 4.0,
-) -> int | None:
-    """End of a faint arc signature that runs on past the ring-down's start ``j0``, or None.
-
-    A long arc on a compensated line fades out: its resistance grows over several cycles and
-    the open phase already follows the recovery (forced-plus-free) waveform while the arc still
-    conducts a little. What the terminal voltage still shows is a faint but significant
-    harmonic ratio (``h > 0`` after the noise correction of :func:`arc_trace`, every value
-    below ``h_max``) that lasts to the arc's end. Required: a significant ratio over the whole
-    cycle before ``j0``; then the last significant sample within ``span`` cycles after ``j0``
-    such that at least ``frac`` of the samples from ``j0`` to it are significant. The answer
-    (trace index) is half a cycle after that sample: the faint signature of the last loops
-    falls below the noise significance before the causal window has passed them (on the
-    simulated corpus the last significant sample lies 0.2–1.3 cycles before the simulator's
-    extinction; our choice, see docs/detection.md).
-    """
-    w = max(1, round(n))
-    if j0 - w < 0 or j0 >= h.shape[0]:
-        return None
-    pos = np.isfinite(h) & (h > 0.0)
-    if pos[j0 - w : j0].mean() < 0.9:
-        return None
-    seg = pos[j0 : min(j0 + int(span * n), h.shape[0])]
-    ok = seg & (np.cumsum(seg) / np.arange(1, seg.size + 1) >= frac)
-    if not ok.any():
-        return None
-    je = int(np.flatnonzero(ok)[-1]) + 1
-    if not np.all(np.nan_to_num(h[j0 - w : j0 + je]) < h_max):
-        return None
-    return j0 + je + w // 2
 
 
 def _last_level_step(
@@ -702,7 +663,7 @@ def detect_extinction(
             f"start of the open phase's free ring-down ({rd.free_frequency_hz:.1f} Hz, "
             "forced-plus-free fit)"
         )
-        j_weak = _weak_signature_end(tr.hratio, rd.index - a, n)
+        j_weak = faint_signature_end(tr.hratio, rd.index - a, n)
         if j_weak is not None and a + j_weak < b:
             # a fading arc: its faint, steady signature outlasts the ring-down's start
             k_ext = a + j_weak
