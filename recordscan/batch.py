@@ -188,17 +188,10 @@ def _versions() -> dict[str, str]:
 
 
 def error_result(path: str, message: str) -> dict[str, Any]:
-    """The scan result of a record that could not be analysed."""
-    return {
-        "schema": 1,
-        "file": path,
-        "status": "error",
-        "error": message,
-        "event": "unclassified",
-        "restrike_s": [],
-        "events": [],
-        "warnings": [],
-    }
+    """The scan result of a record that could not be analysed (every schema key, null)."""
+    from recordscan.analysis import error_json_dict
+
+    return error_json_dict(file=path, error=message)
 
 
 def scan_one(job: ScanJob, outputs: ScanOutputs = ScanOutputs()) -> dict[str, Any]:

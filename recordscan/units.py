@@ -34,24 +34,6 @@ UNIT_PREFIXES: dict[str, float] = {
 }
 
 
-def to_display(value: float, quantity: str) -> float:
-    """Convert an SI value to its display unit.
-
-    Parameters
-    ----------
-    value : float
-        Value in SI units.
-    quantity : str
-        A key of :data:`DISPLAY`.
-
-    Returns
-    -------
-    float
-        The value in the display unit named by ``DISPLAY[quantity][0]``.
-    """
-    return value * DISPLAY[quantity][1]
-
-
 def split_unit(uu: str) -> tuple[str, float]:
     """Split a unit text such as ``"kV"`` or ``"mA"`` into SI base unit and multiplier.
 
