@@ -232,3 +232,18 @@ def test_arc_in_the_network_follows_the_arc_model() -> None:
     np.testing.assert_allclose(ref.l_m, res.arc_l_m[idx], rtol=1e-9)
     np.testing.assert_allclose(ref.g_siemens, res.arc_g_siemens[idx], rtol=1e-7, atol=1e-12)
     assert res.t_s[idx[-1]] > tr.secondary_arc_start_s + 0.3
+
+
+def test_truth_extinction_is_the_end_of_conduction() -> None:
+    """An AC arc goes out at its last current zero; an arc that conducted a unipolar current
+    for more than half a cycle after that zero went out when its criterion fired (the
+    definition in recordscan.physics.network.event._conduction_end; derived, no source)."""
+    from recordscan.physics.network.event import _conduction_end
+
+    f = 50.0
+    t = np.arange(0.0, 0.2, 20e-6)
+    g = np.where(t < 0.1 + 0.3 / f, 1e-3, 0.0)  # criterion 0.3 cycle after the zero at 0.1 s
+    assert _conduction_end(0.1, t, g, f) == 0.1
+    g = np.where(t < 0.1 + 2.0 / f, 1e-3, 0.0)  # conducted two more cycles without a zero
+    assert _conduction_end(0.1, t, g, f) == pytest.approx(0.1 + 2.0 / f, abs=2 * 20e-6)
+    assert _conduction_end(0.1, t, np.full_like(t, 1e-3), f) == 0.1  # never went out

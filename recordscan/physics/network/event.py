@@ -636,6 +636,26 @@ def _rms(x: np.ndarray) -> float | None:
     return float(np.sqrt(np.mean(np.square(x)))) if x.size else None
 
 
+def _conduction_end(t_x: float, t_s: np.ndarray, arc_g: np.ndarray, f_hz: float) -> float:
+    """The instant an extinguished arc stopped conducting, from its logged extinction ``t_x``.
+
+    The kernel logs an extinction at the arc's last current zero (where the dielectric race
+    of Johns et al. 1994 starts). An AC arc goes out there: its extinction criterion fires a
+    fraction of a cycle later, while the conductance of the cooling channel decays. When the
+    criterion fires more than half a cycle after that zero, the arc conducted a unipolar
+    current in between (on a shunt-compensated line, the discharge of the open phase's
+    trapped charge and reactor current through the arc after the pole opening), so it went
+    out when the criterion fired: that instant (the first sample with the conductance set
+    to zero) is returned instead.
+    """
+    k = int(np.searchsorted(t_s, t_x))
+    off = np.flatnonzero(arc_g[k:] <= 0.0)
+    if off.size == 0:
+        return t_x
+    t_c = float(t_s[k + int(off[0])])
+    return t_c if t_c - t_x > 0.5 / f_hz else t_x
+
+
 def _truth(spec: EventSpec, rows: np.ndarray, t_s: np.ndarray, arc_i: np.ndarray,
            arc_g: np.ndarray, vline: np.ndarray, phases: list[str]) -> EventTruth:  # fmt: skip
     kinds = {v: k for k, v in _k.LOG_KINDS.items()}
@@ -672,7 +692,8 @@ def _truth(spec: EventSpec, rows: np.ndarray, t_s: np.ndarray, arc_i: np.ndarray
     first_reclose = min((t for t in reclose.values() if t is not None), default=None)
     limit = first_reclose if first_reclose is not None else float(t_s[-1]) + 1.0
     restrikes = tuple(t for t in times("restrike") if t < limit)
-    exts = tuple(t for t in times("extinction") if t < limit)
+    exts = tuple(_conduction_end(t, t_s, arc_g, spec.frequency_hz) for t in times("extinction"))
+    exts = tuple(t for t in exts if t < limit)
     final_ext = None
     if exts and (not restrikes or exts[-1] > restrikes[-1]):
         final_ext = exts[-1]
