@@ -215,7 +215,8 @@ def draw_scenario(
         phases=phases,
         location_pct=round(_u(rng, r.location_pct), 2),
         point_on_wave_deg=round(float(rng.uniform(0, 360)), 1),
-        resistance_ohm=round(_u(rng, r.fault_resistance_ohm), 2),
+        # rounded to 0.01 ohm, never to zero (the simulator needs a resistance > 0)
+        resistance_ohm=max(round(_u(rng, r.fault_resistance_ohm), 2), 0.01),
         permanent=kind == "single_phase" and rng.random() < r.p_permanent,
     )
     lo, hi = r.recovery_rate_scale
