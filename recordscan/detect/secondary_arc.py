@@ -36,6 +36,7 @@ from recordscan.core.events import Event, Evidence
 from recordscan.core.record import Record
 from recordscan.core.roles import ARC_CURRENT, PHASES, V_LINE
 from recordscan.detect._base import Quantities, finite_median, where
+from recordscan.detect.faint_loops import faint_loops_in_record
 from recordscan.detect.ringdown import faint_signature_end, ringdown_extinction
 from recordscan.errors import DetectionError
 from recordscan.signal.charfunc import robust_scale, step_score
@@ -692,6 +693,22 @@ def detect_extinction(
         )
         if fine is not None:
             t_ext, unc = fine
+    # the arc's last loops may be too faint for the harmonic signature (or the band-passed
+    # ring-down): look for departures from the recovery waveform just after the instant
+    fl = None
+    if not method.startswith("onset"):
+        fl = faint_loops_in_record(
+            refine_record or record,
+            role,
+            f_hz=q.f_hz,
+            t_ext_s=t_ext,
+            t_end_s=observed,
+            free_hz=free_frequency_hz if beat_check else None,
+            max_departure_v=arc_amp,
+        )
+    if fl is not None:
+        t_ext, unc = fl.t_s, max(unc, 0.25 * q.cycle_s)
+        method += ", extended to the last faint arc loop"
     after = tr.level_pu[kc - a : min(kc - a + int(2 * n), b - a)]
     after = after[np.isfinite(after)]
     lvl_after = float(np.median(after)) if after.size else float("nan")
