@@ -15,9 +15,14 @@ import numpy as np
 from recordscan.core.record import Record, Segment
 from recordscan.core.roles import I_LINE, PHASES, POLE_CLOSED, V_LINE
 from recordscan.errors import DetectionError
-from recordscan.signal.charfunc import fast_median, robust_scale
+from recordscan.signal.charfunc import finite_array_median, robust_scale
 from recordscan.signal.filters import highpass
-from recordscan.signal.phasor import dft_kernel, full_cycle_phasor, sliding_rms
+from recordscan.signal.phasor import (
+    dft_kernel,
+    real_parts_phasor,
+    samples_per_cycle,
+    sliding_rms,
+)
 from recordscan.signal.sequence import superimposed
 from recordscan.signal.spectral import harmonic_ratio
 
@@ -29,9 +34,11 @@ HARMONICS: tuple[int, ...] = (3, 5, 7)
 
 def finite_median(x: np.ndarray) -> float:
     """Median of the finite values (NaN when there are none), without a warning."""
-    x = np.asarray(x, dtype=np.float64)
-    x = x[np.isfinite(x)]
-    return fast_median(x) if x.size else float("nan")
+    x = np.asarray(x, dtype=np.float64).reshape(-1)
+    ok = np.isfinite(x)
+    if not ok.all():
+        x = x[ok]
+    return finite_array_median(x) if x.size else float("nan")
 
 
 def decimate_record(record: Record, *, min_samples_per_cycle: float = 40.0) -> Record:
@@ -154,6 +161,7 @@ class Quantities:
         for k, s in enumerate(self.segments):
             self._seg_id[s.start_idx : s.stop_idx] = k
         self._cache: dict[tuple[str, str], np.ndarray] = {}
+        self._kernels: dict[tuple[str, str], tuple[np.ndarray, np.ndarray]] = {}
 
     # ------------------------------------------------------------------ time helpers
     @property
@@ -238,11 +246,18 @@ class Quantities:
             self._cache[key] = arr
         return self._cache[key]
 
-    def _kernel(self, fs: float, t0: float, n: int) -> np.ndarray:
+    def _kernel(self, fs: float, t0: float, n: int) -> tuple[np.ndarray, np.ndarray]:
+        """Real and imaginary parts of the DFT kernel of a segment (computed once)."""
         key = (f"{fs!r}:{t0!r}:{n}", "kernel")
-        if key not in self._cache:
-            self._cache[key] = dft_kernel(n, fs_hz=fs, f_hz=self.f_hz, t0_s=t0)
-        return self._cache[key]
+        if key not in self._kernels:
+            k = dft_kernel(n, fs_hz=fs, f_hz=self.f_hz, t0_s=t0)
+            self._kernels[key] = (k.real.copy(), k.imag.copy())
+        return self._kernels[key]
+
+    def _phasor_of(self, x: np.ndarray, fs: float, t0: float) -> np.ndarray:
+        """:func:`full_cycle_phasor` of finite samples ``x`` (rows) of one segment."""
+        kr, ki = self._kernel(fs, t0, x.shape[-1])
+        return real_parts_phasor(x, kr, ki, samples_per_cycle(fs, self.f_hz))
 
     def phasor(self, role: str) -> np.ndarray:
         """Sliding full-cycle phasor (RMS, absolute-time reference) of ``role``."""
@@ -252,8 +267,7 @@ class Quantities:
             def one(p: np.ndarray, fs: float, t0: float) -> np.ndarray:
                 if p.shape[0] < fs / f + 1:
                     return np.full(p.shape[0], np.nan, dtype=complex)
-                k = self._kernel(fs, t0, p.shape[0])
-                return full_cycle_phasor(p, fs_hz=fs, f_hz=f, t0_s=t0, kernel=k)
+                return self._phasor_of(p, fs, t0)
 
             return self._per_segment(x, one, np.complex128)
 
@@ -275,13 +289,7 @@ class Quantities:
         s = self.segments[0]
         if whole and xs.shape[1] >= 2 and xs.shape[1] >= s.rate_hz / f + 1:
             # one segment over the whole record: its result is the array (no copy)
-            out = full_cycle_phasor(
-                xs,
-                fs_hz=s.rate_hz,
-                f_hz=f,
-                t0_s=float(self.t_s[0]),
-                kernel=self._kernel(s.rate_hz, float(self.t_s[0]), xs.shape[1]),
-            )
+            out = self._phasor_of(xs, s.rate_hz, float(self.t_s[0]))
             out.setflags(write=False)
             for j, r in enumerate(todo):
                 self._cache[(r, "phasor")] = out[j]
@@ -293,10 +301,7 @@ class Quantities:
             if part.shape[1] < 2 or part.shape[1] < fs / f + 1:
                 continue
             t0 = float(self.t_s[s.start_idx])
-            k = self._kernel(fs, t0, part.shape[1])
-            out[:, s.start_idx : s.stop_idx] = full_cycle_phasor(
-                part, fs_hz=fs, f_hz=f, t0_s=t0, kernel=k
-            )
+            out[:, s.start_idx : s.stop_idx] = self._phasor_of(part, fs, t0)
         out.setflags(write=False)
         for j, r in enumerate(todo):
             self._cache[(r, "phasor")] = out[j]

@@ -63,6 +63,13 @@ def _running(x: np.ndarray, n: int, fn: str) -> np.ndarray:
     n = max(1, int(n))
     if x.size == 0 or n == 1:
         return x.copy()
+    if x.ndim == 1 and np.isfinite(x).all():
+        # the same extremes by scipy's running-extreme filter (O(len) whatever n): the window
+        # [k - n + 1, k] with x[0] repeated before the start ("nearest" edge)
+        from scipy.ndimage import maximum_filter1d, minimum_filter1d
+
+        filt = maximum_filter1d if fn == "max" else minimum_filter1d
+        return filt(x, size=n, mode="nearest", origin=(n - 1) // 2)
     pad = np.concatenate((np.full(n - 1, x[0]), x))
     win = sliding_window_view(pad, n)
     return win.max(axis=1) if fn == "max" else win.min(axis=1)

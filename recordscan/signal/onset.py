@@ -15,23 +15,35 @@ __all__ = [
 
 def runs(mask: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Start and stop (exclusive) indices of the runs of True in ``mask``."""
-    m = np.asarray(mask, dtype=bool)
-    if m.size == 0:
+    m = np.asarray(mask, dtype=bool).reshape(-1)
+    n = m.size
+    if n == 0:
         return np.empty(0, dtype=np.int64), np.empty(0, dtype=np.int64)
-    padded = np.zeros(m.size + 2, dtype=np.int8)
-    padded[1:-1] = m.reshape(-1)
-    d = np.diff(padded)
-    return np.flatnonzero(d == 1), np.flatnonzero(d == -1)
+    # every change of state is a run's start or stop; they alternate, beginning with a
+    # start (a run at the very beginning starts at 0, one at the very end stops at n)
+    edges = np.flatnonzero(m[1:] != m[:-1]) + 1
+    head, tail = bool(m[0]), bool(m[-1])
+    if head or tail:
+        edges = np.concatenate(([0] if head else [], edges, [n] if tail else [])).astype(np.int64)
+    return edges[0::2], edges[1::2]
 
 
 def first_sustained(mask: np.ndarray, *, n_hold: int, start: int = 0) -> int | None:
     """Index of the first sample at or after ``start`` that begins ≥ ``n_hold`` True samples."""
-    m = np.asarray(mask, dtype=bool)[start:]
-    s, e = runs(m)
-    ok = np.flatnonzero((e - s) >= max(1, n_hold))
-    if ok.size == 0:
+    m = np.asarray(mask, dtype=bool).reshape(-1)[start:]
+    # the False samples bound the runs: a run begins after each False (or at the start) and
+    # lasts to the next False (or the end)
+    off = np.flatnonzero(~m)
+    if off.size == 0:
+        return start if m.size >= max(1, n_hold) else None
+    bounds = np.empty(off.size + 2, dtype=np.int64)
+    bounds[0] = -1
+    bounds[1:-1] = off
+    bounds[-1] = m.size
+    long = np.flatnonzero(np.diff(bounds) > max(1, n_hold))
+    if long.size == 0:
         return None
-    return int(s[ok[0]] + start)
+    return int(bounds[long[0]] + 1 + start)
 
 
 def hysteresis_state(cf: np.ndarray, *, on: float, off: float, initial: bool = False) -> np.ndarray:

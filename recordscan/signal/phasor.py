@@ -25,6 +25,7 @@ __all__ = [
     "frequency_from_phasor",
     "full_cycle_phasor",
     "half_cycle_phasor",
+    "real_parts_phasor",
     "samples_per_cycle",
     "sliding_rms",
     "sliding_window_sum",
@@ -127,7 +128,42 @@ def full_cycle_phasor(
         if kernel is not None
         else dft_kernel(x.shape[-1], fs_hz=fs_hz, f_hz=harmonic * f_hz, t0_s=t0_s)
     )
+    if np.isfinite(x).all():
+        return real_parts_phasor(x, k.real, k.imag, length)
     out = sliding_window_sum(x * k, length)
+    out *= np.sqrt(2.0) / length
+    return out
+
+
+def real_parts_phasor(
+    x: np.ndarray, kernel_re: np.ndarray, kernel_im: np.ndarray, length: float
+) -> np.ndarray:
+    """:func:`full_cycle_phasor` of finite real samples, given the kernel's parts.
+
+    ``x·kernel`` of a real ``x`` has the parts ``x·Re k`` and ``x·Im k``: two real products
+    written into the parts of one complex array (the numbers of the complex product, for a
+    finite ``x``; no cast of ``x`` to complex).
+
+    Parameters
+    ----------
+    x : numpy.ndarray
+        Finite uniform samples (a 2-D array: one channel per row).
+    kernel_re, kernel_im : numpy.ndarray
+        Real and imaginary parts of the DFT kernel (:func:`dft_kernel`), length
+        ``x.shape[-1]`` (a 2-D kernel: one row per row of ``x``).
+    length : float
+        Samples per cycle of the kernel's fundamental (window length).
+
+    Returns
+    -------
+    numpy.ndarray
+        Complex RMS phasors, NaN before the first full cycle.
+    """
+    shape = np.broadcast_shapes(x.shape, np.shape(kernel_re))
+    z = np.empty(shape, dtype=np.complex128)
+    np.multiply(x, kernel_re, out=z.real)
+    np.multiply(x, kernel_im, out=z.imag)
+    out = sliding_window_sum(z, length)
     out *= np.sqrt(2.0) / length
     return out
 

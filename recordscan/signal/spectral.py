@@ -16,6 +16,13 @@ import numpy as np
 
 from recordscan.signal.phasor import full_cycle_phasor, samples_per_cycle, sliding_rms
 
+try:  # the gufunc behind np.linalg.solve (its wrapper's checks cost more than a 5x5 solve)
+    from numpy.linalg import _umath_linalg
+
+    _SOLVE1 = _umath_linalg.solve1
+except (ImportError, AttributeError):  # pragma: no cover - another numpy layout
+    _SOLVE1 = None
+
 __all__ = [
     "BeatFit",
     "envelope",
@@ -246,13 +253,59 @@ def _ls_fit(
         w = 2 * np.pi * f * t
         np.cos(w, out=a[3 + 2 * k])
         np.sin(w, out=a[4 + 2 * k])
+    with np.errstate(all="ignore"):
+        return _solve_rows(a, x)
+
+
+def _solve_rows(a: np.ndarray, x: np.ndarray) -> tuple[np.ndarray, float]:
+    """Least squares of ``x`` on the rows of ``a`` by the normal equations (``lstsq`` when
+    they are singular); (coefficients, RMS residual).
+
+    Call it under ``np.errstate(all="ignore")``: a singular system then gives non-finite
+    values from the solver (instead of an error) and takes the fallback.
+    """
     gram = a @ a.T
-    try:
-        coef = np.linalg.solve(gram, a @ x)
-    except np.linalg.LinAlgError:
-        coef = np.linalg.lstsq(a.T, x, rcond=None)[0]
+    rhs = a @ x
+    coef = None
+    if _SOLVE1 is not None:
+        # the gufunc behind np.linalg.solve without its per-call checks (same LAPACK gesv,
+        # same numbers)
+        coef = _SOLVE1(gram, rhs, signature="dd->d")
+        if not np.isfinite(coef).all():
+            coef = None
+    if coef is None:
+        try:
+            coef = np.linalg.solve(gram, rhs)
+        except np.linalg.LinAlgError:
+            coef = np.linalg.lstsq(a.T, x, rcond=None)[0]
     res = x - coef @ a
-    return coef, float(np.sqrt(np.mean(res * res)))
+    res *= res
+    # np.mean's own steps (pairwise sum, then one division), without its wrapper
+    return coef, float(np.sqrt(np.add.reduce(res) / res.shape[0]))
+
+
+class _FreeComponentFit:
+    """Residual RMS of the forced-plus-free fit as a function of the free frequency.
+
+    The forced rows are copied once into a work array whose last two rows are rewritten per
+    call (the same arithmetic as :func:`_ls_fit` with ``fixed``).
+    """
+
+    def __init__(self, x: np.ndarray, t: np.ndarray, fixed: np.ndarray) -> None:
+        self.x, self.t = x, t
+        self.a = np.empty((5, t.shape[0]))
+        self.a[:3] = fixed
+        self.w = np.empty(t.shape[0])
+
+    def fit(self, fr: float) -> tuple[np.ndarray, float]:
+        """Coefficients and RMS residual with the free component at ``fr``."""
+        np.multiply(2 * np.pi * fr, self.t, out=self.w)
+        np.cos(self.w, out=self.a[3])
+        np.sin(self.w, out=self.a[4])
+        return _solve_rows(self.a, self.x)
+
+    def __call__(self, fr: float) -> float:
+        return self.fit(fr)[1]
 
 
 def _basis(t: np.ndarray, freqs: list[float]) -> np.ndarray:
@@ -319,8 +372,10 @@ def fit_beat(
     f_guess = float(freqs[band][np.argmax(spec[band])])
     step = max(fs_hz / n_fft * 4, 1.0 / dur)
     lo, hi = max(0.3 * f_hz, f_guess - step), min(1.7 * f_hz, f_guess + step)
-    fn = golden_min(lambda fr: _ls_fit(x, t, [f_hz, fr], fixed=fixed)[1], lo, hi, tol=0.01)
-    coef2, res2 = _ls_fit(x, t, [f_hz, fn], fixed=fixed)
+    free_fit = _FreeComponentFit(x, t, fixed)
+    with np.errstate(all="ignore"):
+        fn = golden_min(free_fit, lo, hi, tol=0.01)
+        coef2, res2 = free_fit.fit(fn)
     forced2 = float(np.hypot(coef2[1], coef2[2]) / np.sqrt(2.0))
     free2 = float(np.hypot(coef2[3], coef2[4]) / np.sqrt(2.0))
     if free2 > min_free_fraction * max(forced2, 1e-300) and res2 < res1 / 1.5:

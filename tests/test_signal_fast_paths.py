@@ -1,0 +1,137 @@
+"""The faster code paths of the signal layer give the numbers of their plain references.
+
+Each fast path (written for the scan's speed, issue 4) is checked on random inputs against a
+direct computation with numpy itself: the complex sliding DFT, ``sliding_window_view`` for
+running extremes, the padded-``diff`` run finder, ``np.linalg.lstsq`` for least squares and
+``np.median`` for medians. Exact equality where the fast path does the same arithmetic;
+a round-off tolerance where it does not (stated beside each check).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from numpy.lib.stride_tricks import sliding_window_view
+
+from recordscan.signal.charfunc import fast_median, finite_array_median, robust_scale
+from recordscan.signal.filters import running_max, running_min
+from recordscan.signal.onset import first_sustained, runs
+from recordscan.signal.phasor import (
+    dft_kernel,
+    full_cycle_phasor,
+    real_parts_phasor,
+    sliding_window_sum,
+)
+from recordscan.signal.spectral import _basis, _FreeComponentFit, _ls_fit
+
+
+def _complex_phasor(x: np.ndarray, fs: float, f: float, t0: float, h: int) -> np.ndarray:
+    """The full-cycle DFT phasor in complex arithmetic (the textbook form: Phadke & Thorp,
+    *Synchronized Phasor Measurements and Their Applications*, 2008, ch. 1)."""
+    length = fs / f
+    k = dft_kernel(x.shape[-1], fs_hz=fs, f_hz=h * f, t0_s=t0)
+    out = sliding_window_sum(x * k, length)
+    out *= np.sqrt(2.0) / length
+    return out
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_real_parts_phasor_equals_complex_product(seed: int) -> None:
+    rng = np.random.default_rng(seed)
+    for _ in range(50):
+        fs = float(rng.choice([960.0, 1000.0, 2000.0, 2500.0, 4000.0, 1234.5]))
+        f = float(rng.choice([50.0, 60.0, 49.7, 60.3]))
+        n = int(rng.integers(1, 2000))
+        shape = (n,) if rng.random() < 0.5 else (3, n)
+        x = rng.normal(size=shape) * 10 ** rng.uniform(-3, 6)
+        h = int(rng.choice([1, 3, 5]))
+        want = _complex_phasor(x, fs, f, 0.013, h)
+        got = full_cycle_phasor(x, fs_hz=fs, f_hz=f, t0_s=0.013, harmonic=h)
+        assert np.array_equal(want, got, equal_nan=True)
+        k = dft_kernel(n, fs_hz=fs, f_hz=h * f, t0_s=0.013)
+        direct = real_parts_phasor(x, k.real.copy(), k.imag.copy(), fs / f)
+        assert np.array_equal(want, direct, equal_nan=True)
+
+
+def test_full_cycle_phasor_keeps_nan_handling_of_complex_path() -> None:
+    x = np.sin(np.arange(400) * 0.3)
+    x[200] = np.nan
+    got = full_cycle_phasor(x, fs_hz=1000.0, f_hz=50.0)
+    want = _complex_phasor(x, 1000.0, 50.0, 0.0, 1)
+    assert np.array_equal(got, want, equal_nan=True)
+
+
+def test_running_extremes_equal_sliding_window_view() -> None:
+    rng = np.random.default_rng(7)
+    for trial in range(600):
+        n = int(rng.integers(1, 120))
+        m = int(rng.integers(1, 800))
+        x = rng.normal(size=m) if trial % 2 else (rng.random(m) > 0.7).astype(float)
+        pad = np.concatenate((np.full(n - 1, x[0]), x))
+        win = sliding_window_view(pad, n)
+        assert np.array_equal(running_max(x, n), win.max(axis=1))
+        assert np.array_equal(running_min(x, n), win.min(axis=1))
+    x = np.array([1.0, np.nan, 3.0, 0.0, 2.0])  # NaN: the window reduction (NaN spreads)
+    pad = np.concatenate((np.full(2, x[0]), x))
+    assert np.array_equal(
+        running_max(x, 3), sliding_window_view(pad, 3).max(axis=1), equal_nan=True
+    )
+
+
+def _runs_reference(m: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    padded = np.zeros(m.size + 2, dtype=np.int8)
+    padded[1:-1] = m
+    d = np.diff(padded)
+    return np.flatnonzero(d == 1), np.flatnonzero(d == -1)
+
+
+def test_runs_and_first_sustained_equal_padded_diff() -> None:
+    rng = np.random.default_rng(11)
+    for _ in range(5000):
+        n = int(rng.integers(0, 60))
+        m = rng.random(n) < rng.random()
+        s, e = runs(m)
+        s0, e0 = _runs_reference(m)
+        assert np.array_equal(s, s0) and np.array_equal(e, e0)
+        hold = int(rng.integers(-1, 8))
+        start = int(rng.integers(0, n + 3))
+        sub = m[start:]
+        rs, re_ = _runs_reference(sub)
+        ok = np.flatnonzero((re_ - rs) >= max(1, hold))
+        want = None if ok.size == 0 else int(rs[ok[0]] + start)
+        assert first_sustained(m, n_hold=hold, start=start) == want
+
+
+def test_medians_equal_numpy_median() -> None:
+    rng = np.random.default_rng(3)
+    for n in range(1, 60):
+        x = rng.normal(size=n)
+        assert finite_array_median(x) == float(np.median(x))
+        assert fast_median(x) == float(np.median(x))
+        want = 1.4826 * float(np.median(np.abs(x - np.median(x))))
+        assert robust_scale(x) == want
+    x = np.array([1.0, np.nan, 5.0, 2.0])
+    assert robust_scale(x) == 1.4826 * float(np.median(np.abs(x[[0, 2, 3]] - 2.0)))
+
+
+def test_least_squares_fit_equals_lstsq() -> None:
+    """The normal-equations fit of fit_beat against numpy's SVD least squares (round-off:
+    relative 1e-9 on coefficients of a well-conditioned basis)."""
+    rng = np.random.default_rng(5)
+    fs, f = 833.3, 60.0
+    t = np.arange(400) / fs
+    x = 3.0 + 2.0 * np.cos(2 * np.pi * f * t + 0.4) + 0.7 * np.sin(2 * np.pi * 41.3 * t)
+    x += rng.normal(scale=0.05, size=t.size)
+    fixed = _basis(t, [f])
+    for fr in (30.0, 41.3, 55.0, 80.0):
+        a = _basis(t, [f, fr])
+        want, *_ = np.linalg.lstsq(a.T, x, rcond=None)
+        res_want = float(np.sqrt(np.mean((x - want @ a) ** 2)))
+        coef, res = _ls_fit(x, t, [f, fr], fixed=fixed)
+        np.testing.assert_allclose(coef, want, rtol=1e-9, atol=1e-9)
+        assert res == pytest.approx(res_want, rel=1e-9)
+        coef2, res2 = _FreeComponentFit(x, t, fixed).fit(fr)
+        assert np.array_equal(coef, coef2) and res == res2
+    # a singular system (the free frequency equal to the forced one) falls back to lstsq
+    coef, res = _ls_fit(x, t, [f, f], fixed=fixed)
+    assert np.isfinite(coef).all() and np.isfinite(res)
