@@ -26,7 +26,14 @@ from recordscan.signal.phasor import (
 from recordscan.signal.sequence import superimposed
 from recordscan.signal.spectral import harmonic_ratio
 
-__all__ = ["HARMONICS", "Quantities", "decimate_record", "finite_median", "where"]
+__all__ = [
+    "HARMONICS",
+    "Quantities",
+    "decimate_record",
+    "finite_median",
+    "finite_values",
+    "where",
+]
 
 #: harmonic orders of the arc signature (those below 0.45·fs are used)
 HARMONICS: tuple[int, ...] = (3, 5, 7)
@@ -112,9 +119,12 @@ def _block_mean(x: np.ndarray, lo: int, n_blk: int, k: int) -> np.ndarray:
     return out
 
 
-def _finite(x: np.ndarray) -> np.ndarray:
-    """``np.nan_to_num(x)``, or ``x`` itself (read-only channel data) when all finite."""
+def finite_values(x: np.ndarray) -> np.ndarray:
+    """``np.nan_to_num(x)``, or ``x`` itself (no copy) when all finite: for reading only."""
     return x if np.isfinite(x).all() else np.nan_to_num(x)
+
+
+_finite = finite_values
 
 
 def _joined(parts: list[np.ndarray]) -> np.ndarray:
@@ -284,7 +294,7 @@ class Quantities:
         if len(todo) < 2:
             return
         f = self.f_hz
-        xs = np.stack([_finite(self.values(r)) for r in todo])
+        xs = self._stacked(todo)
         whole = len(self.segments) == 1 and self.segments[0].n_samples == xs.shape[1]
         s = self.segments[0]
         if whole and xs.shape[1] >= 2 and xs.shape[1] >= s.rate_hz / f + 1:
@@ -305,6 +315,35 @@ class Quantities:
         out.setflags(write=False)
         for j, r in enumerate(todo):
             self._cache[(r, "phasor")] = out[j]
+
+    def _stacked(self, roles: list[str]) -> np.ndarray:
+        """The finite samples of several roles as the rows of one array (made once)."""
+        key = ("|".join(roles), "stack")
+        if key not in self._cache:
+            self._cache[key] = np.stack([_finite(self.values(r)) for r in roles])
+        return self._cache[key]
+
+    def prefetch_deltas(self, roles: Iterable[str]) -> None:
+        """Compute the :meth:`delta` of several roles together (one 2-D pass per segment;
+        the same values as one role at a time)."""
+        todo = [
+            r
+            for r in dict.fromkeys(roles)
+            if (r, "delta") not in self._cache and self.values(r) is not None
+        ]
+        if len(todo) < 2:
+            return
+        f = self.f_hz
+        xs = self._stacked(todo)
+        out = np.full(xs.shape, np.nan)
+        for s in self.segments:
+            part = xs[:, s.start_idx : s.stop_idx]
+            if part.shape[1] < 2 or part.shape[1] < s.rate_hz / f + 2:
+                continue
+            out[:, s.start_idx : s.stop_idx] = superimposed(part, length=s.rate_hz / f)
+        out.setflags(write=False)
+        for j, r in enumerate(todo):
+            self._cache[(r, "delta")] = out[j]
 
     def magnitude(self, role: str) -> np.ndarray:
         """Magnitude of :meth:`phasor`."""
