@@ -135,3 +135,47 @@ def test_least_squares_fit_equals_lstsq() -> None:
     # a singular system (the free frequency equal to the forced one) falls back to lstsq
     coef, res = _ls_fit(x, t, [f, f], fixed=fixed)
     assert np.isfinite(coef).all() and np.isfinite(res)
+
+
+def test_harmonic_kernels_by_powers_equal_direct_exponentials() -> None:
+    """Powers of the fundamental's kernel against ``exp(−j·2π·h·f·t)`` itself (round-off:
+    relative 1e-11 over 10 s of 60 Hz samples, harmonic 7)."""
+    from recordscan.signal.spectral import _kernel_powers
+
+    fs, f, t0 = 2500.0, 60.0, 0.37
+    n = int(10 * fs)
+    base = dft_kernel(n, fs_hz=fs, f_hz=f, t0_s=t0)
+    got = _kernel_powers(base, [5, 3, 7, 1])
+    for row, h in zip(got, [5, 3, 7, 1], strict=True):
+        np.testing.assert_allclose(row, dft_kernel(n, fs_hz=fs, f_hz=h * f, t0_s=t0), atol=1e-11)
+
+
+@pytest.mark.parametrize("n_cycles", [1, 2])
+def test_harmonic_ratio_equals_one_phasor_per_harmonic(n_cycles: int) -> None:
+    """The 2-D harmonic ratio against the sum of one complex phasor per harmonic (round-off:
+    relative 1e-10)."""
+    from recordscan.signal.phasor import sliding_rms
+    from recordscan.signal.spectral import harmonic_ratio
+
+    rng = np.random.default_rng(9)
+    fs, f = 2400.0, 50.0
+    t = np.arange(3000) / fs
+    x = np.sign(np.sin(2 * np.pi * f * t)) + rng.normal(scale=0.05, size=t.size)
+    got = harmonic_ratio(x, fs_hz=fs, f_hz=f, harmonics=(3, 5, 7), t0_s=0.1, n_cycles=n_cycles)
+    m = n_cycles
+    acc = np.zeros(t.size)
+    for h in (3, 5, 7):
+        acc = acc + np.abs(_complex_phasor(x, fs, f / m, 0.1, h * m)) ** 2
+    want = np.sqrt(acc) / sliding_rms(x, length=m * fs / f)
+    np.testing.assert_allclose(got, want, rtol=1e-10, equal_nan=True)
+
+
+def test_sosfilt_pass_equals_scipy_sosfilt() -> None:
+    from scipy.signal import butter, sosfilt, sosfilt_zi
+
+    from recordscan.signal.filters import _sosfilt_pass
+
+    sos = butter(4, 120.0, btype="highpass", fs=2500.0, output="sos")
+    x = np.random.default_rng(1).normal(size=1000)
+    zi = sosfilt_zi(sos) * x[0]
+    assert np.array_equal(_sosfilt_pass(sos, x, zi), sosfilt(sos, x, zi=zi)[0])

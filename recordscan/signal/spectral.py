@@ -14,7 +14,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from recordscan.signal.phasor import full_cycle_phasor, samples_per_cycle, sliding_rms
+from recordscan.signal.phasor import (
+    dft_kernel,
+    full_cycle_phasor,
+    real_parts_phasor,
+    samples_per_cycle,
+    sliding_rms,
+)
 
 try:  # the gufunc behind np.linalg.solve (its wrapper's checks cost more than a 5x5 solve)
     from numpy.linalg import _umath_linalg
@@ -171,17 +177,46 @@ def harmonic_ratio(
     x = np.asarray(x, dtype=np.float64)
     m = max(1, int(n_cycles))
     length = m * samples_per_cycle(fs_hz, f_hz)
+    orders = [h for h in harmonics if not h * f_hz >= 0.45 * fs_hz]
     acc = np.zeros(x.shape[0])
-    for h in harmonics:
-        if h * f_hz >= 0.45 * fs_hz:
-            continue
-        ph = full_cycle_phasor(x, fs_hz=fs_hz, f_hz=f_hz / m, t0_s=t0_s, harmonic=h * m)
-        acc = acc + np.abs(ph) ** 2
+    if orders and np.isfinite(x).all():
+        # all the harmonics' sliding DFTs in one 2-D pass; their kernels are powers of the
+        # fundamental's (one complex exponential instead of one per harmonic)
+        kern = _kernel_powers(dft_kernel(x.shape[0], fs_hz=fs_hz, f_hz=f_hz, t0_s=t0_s), orders)
+        ph = real_parts_phasor(x, kern.real, kern.imag, samples_per_cycle(fs_hz, f_hz / m))
+        mag2 = np.abs(ph)
+        mag2 *= mag2
+        acc = mag2[0]
+        for row in mag2[1:]:
+            acc += row
+    else:
+        for h in orders:
+            ph = full_cycle_phasor(x, fs_hz=fs_hz, f_hz=f_hz / m, t0_s=t0_s, harmonic=h * m)
+            acc = acc + np.abs(ph) ** 2
     rms = sliding_rms(x if rms_of is None else np.asarray(rms_of, float), length=length)
     with np.errstate(invalid="ignore", divide="ignore"):
         r = np.sqrt(acc) / rms
     r[~np.isfinite(r)] = np.nan
     return r
+
+
+def _kernel_powers(base: np.ndarray, orders: list[int]) -> np.ndarray:
+    """Rows ``base**h`` for the positive integers ``orders``, by repeated multiplication
+    (equal to the direct kernels of the harmonics to round-off)."""
+    out = np.empty((len(orders), base.shape[0]), dtype=np.complex128)
+    squares = base * base
+    cur, cur_h = base, 1
+    for j, h in sorted(enumerate(orders), key=lambda jh: jh[1]):
+        if h < 1:
+            raise ValueError("harmonic orders must be positive integers")
+        while h - cur_h >= 2:
+            cur = cur * squares
+            cur_h += 2
+        if h - cur_h == 1:
+            cur = cur * base
+            cur_h += 1
+        out[j] = cur
+    return out
 
 
 def envelope(x: np.ndarray) -> np.ndarray:
