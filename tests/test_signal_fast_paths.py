@@ -179,3 +179,24 @@ def test_sosfilt_pass_equals_scipy_sosfilt() -> None:
     x = np.random.default_rng(1).normal(size=1000)
     zi = sosfilt_zi(sos) * x[0]
     assert np.array_equal(_sosfilt_pass(sos, x, zi), sosfilt(sos, x, zi=zi)[0])
+
+
+def test_uniform_record_check_gives_the_segment_loop_answer(monkeypatch) -> None:
+    """Record segments with the chunked uniformity check against the interval-run loop alone
+    (forced by disabling the check) on jittered, stepped and gapped time axes."""
+    import recordscan.core.record as rec_mod
+
+    rng = np.random.default_rng(0)
+    for trial in range(400):
+        n = int(rng.integers(3, 20000))
+        dt = np.full(n - 1, 1e-4) * (1 + rng.normal(scale=10 ** rng.uniform(-9, -1.5), size=n - 1))
+        if trial % 3 == 0:
+            dt[int(rng.integers(0, n - 1))] *= rng.uniform(1.0, 50.0)
+        if trial % 5 == 0:
+            dt[int(rng.integers(0, n - 1)) :] *= 2.0
+        t = np.concatenate(([0.0], np.cumsum(dt)))
+        fast = rec_mod.Record(t_s=t)._find_segments()
+        with monkeypatch.context() as m:
+            m.setattr(rec_mod, "_uniform", lambda t, chunk=8192: False)
+            slow = rec_mod.Record(t_s=t)._find_segments()
+        assert fast == slow
