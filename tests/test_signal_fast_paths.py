@@ -200,3 +200,20 @@ def test_uniform_record_check_gives_the_segment_loop_answer(monkeypatch) -> None
             m.setattr(rec_mod, "_uniform", lambda t, chunk=8192: False)
             slow = rec_mod.Record(t_s=t)._find_segments()
         assert fast == slow
+
+
+def test_long_dft_kernel_equals_direct_exponential() -> None:
+    """The blocked kernel of a long record against ``exp(−j·2π·f·t)`` sample by sample
+    (round-off: both forms round the phase angle, so they agree to a few units in the last
+    place of the largest angle, 2π·f·t_max)."""
+    for n, fs, f, t0 in [
+        (7500, 2500.0, 60.0, 0.0),
+        (200000, 20000.0, 350.0, 0.3),
+        (1500, 960.0, 50.0, 2.0),
+    ]:
+        t = t0 + np.arange(n) / fs
+        want = np.exp(-1j * 2.0 * np.pi * f * t)
+        got = dft_kernel(n, fs_hz=fs, f_hz=f, t0_s=t0)
+        assert got.shape == (n,)
+        atol = 4.0 * float(np.spacing(2.0 * np.pi * f * t[-1]))
+        np.testing.assert_allclose(got, want, rtol=0, atol=atol)

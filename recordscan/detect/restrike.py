@@ -19,7 +19,7 @@ from recordscan.core.record import Record
 from recordscan.core.roles import V_LINE
 from recordscan.detect._base import Quantities, finite_values
 from recordscan.detect.secondary_arc import ArcTrace
-from recordscan.signal.charfunc import fast_median
+from recordscan.signal.charfunc import fast_median, finite_array_median
 from recordscan.signal.filters import moving_average, running_max
 from recordscan.signal.onset import runs
 
@@ -51,11 +51,13 @@ def local_arc_level(
     out = np.full(n, floor)
     block = max(1, int(block))
     level = floor
+    finite = bool(np.isfinite(abs_v).all())
     for j in range(0, n, block):
         lo = max(0, j - block)
         sel = burning[lo : j + block]
-        if np.any(sel):
-            level = max(fast_median(abs_v[lo : j + block][sel]), floor)
+        if sel.any():
+            part = abs_v[lo : j + block][sel]
+            level = max(finite_array_median(part) if finite else fast_median(part), floor)
         out[j : j + block] = level
     return out
 

@@ -35,7 +35,7 @@ import numpy as np
 from recordscan.core.events import Event, Evidence
 from recordscan.core.record import Record
 from recordscan.core.roles import ARC_CURRENT, PHASES, V_LINE
-from recordscan.detect._base import Quantities, finite_median, where
+from recordscan.detect._base import Quantities, finite_median, finite_values, where
 from recordscan.detect.ringdown import faint_signature_end, ringdown_extinction
 from recordscan.errors import DetectionError
 from recordscan.signal.charfunc import robust_scale, step_score
@@ -380,7 +380,7 @@ def _refine_full_rate(
         return None
     lo, hi = max(k_lo, seg.start_idx), min(k_hi, seg.stop_idx)
     n = seg.rate_hz / f_hz
-    v = np.nan_to_num(ch.values)
+    v = finite_values(ch.values)
     ref = _refine(v, t, kc=k_c, n=n, f_hz=f_hz, lo=lo, hi=hi, arc_amp=arc_amp)
     if ref is None or not k_c - window_cycles * n - 2 <= ref[0] <= k_c:
         return None
@@ -414,8 +414,9 @@ def _refine(
         if fit_b - k_fit < max(8, int(n)):
             return None
         tt = t[k_fit:fit_b] - t[k_fit]
-        coef, *_ = np.linalg.lstsq(basis(tt), v[k_fit:fit_b], rcond=None)
-        res_fit = v[k_fit:fit_b] - basis(tt) @ coef
+        b_fit = basis(tt)
+        coef, *_ = np.linalg.lstsq(b_fit, v[k_fit:fit_b], rcond=None)
+        res_fit = v[k_fit:fit_b] - b_fit @ coef
         s_lo = max(lo, k_top - int(np.ceil(2.0 * n)))
         ts = t[s_lo : k_top + 1] - t[k_fit]
         res = np.abs(v[s_lo : k_top + 1] - basis(ts) @ coef)
@@ -555,7 +556,7 @@ def detect_extinction(
             ("the arc still burns at the end of the observation",),
         )
     warns: list[str] = []
-    v = np.nan_to_num(q.values(role))
+    v = finite_values(q.values(role))
     rd = None
     lo_rd = max(a - int(np.ceil(n)), q.segment_at(a).start_idx)
     if beat_check and q.segment_at(b - 1).start_idx <= lo_rd:

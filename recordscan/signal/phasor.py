@@ -82,9 +82,21 @@ def sliding_window_sum(z: np.ndarray, length: float) -> np.ndarray:
 
 
 def dft_kernel(n: int, *, fs_hz: float, f_hz: float, t0_s: float = 0.0) -> np.ndarray:
-    """The DFT kernel ``exp(−j·2π·f·t_k)`` at the sample instants ``t_k = t0 + k/fs``."""
-    t = t0_s + np.arange(n) / fs_hz
-    return np.exp(-1j * 2.0 * np.pi * f_hz * t)
+    """The DFT kernel ``exp(−j·2π·f·t_k)`` at the sample instants ``t_k = t0 + k/fs``.
+
+    Long kernels are built as ``exp(−j·ω·(t0 + q·B/fs))·exp(−j·ω·r/fs)`` for ``k = q·B + r``
+    (``B ≈ √n``): two short complex exponentials and one product per sample instead of one
+    complex exponential per sample (equal to the direct form to round-off).
+    """
+    if n < 1024:
+        t = t0_s + np.arange(n) / fs_hz
+        return np.exp(-1j * 2.0 * np.pi * f_hz * t)
+    b = int(np.ceil(np.sqrt(n)))
+    n_q = -(-n // b)
+    w = -1j * 2.0 * np.pi * f_hz
+    coarse = np.exp(w * (t0_s + np.arange(n_q) * (b / fs_hz)))
+    fine = np.exp(w * (np.arange(b) / fs_hz))
+    return np.multiply.outer(coarse, fine).reshape(-1)[:n]
 
 
 def full_cycle_phasor(
