@@ -175,8 +175,41 @@ def real_parts_phasor(
     z = np.empty(shape, dtype=np.complex128)
     np.multiply(x, kernel_re, out=z.real)
     np.multiply(x, kernel_im, out=z.imag)
-    out = sliding_window_sum(z, length)
+    out = _sliding_sum_of_temporary(z, length)
     out *= np.sqrt(2.0) / length
+    return out
+
+
+def _sliding_sum_of_temporary(z: np.ndarray, length: float) -> np.ndarray:
+    """:func:`sliding_window_sum` of a complex temporary that may be overwritten.
+
+    The same numbers with one record-sized array fewer: the running sum goes to a buffer
+    without the leading zero (``c[k + 1]`` is ``s[k]``; ``c[0] = 0`` is subtracted as such)
+    and the fractional oldest sample is weighted in place in ``z``.
+    """
+    n = z.shape[-1]
+    if length < 1:
+        raise ValueError("window length must be at least one sample")
+    n_full = int(np.floor(length + 1e-9))
+    frac = float(length - n_full)
+    if frac < 1e-9:
+        frac = 0.0
+    first = n_full if frac > 0 else n_full - 1
+    out = np.empty(z.shape, dtype=np.complex128)
+    if n <= first:
+        out[...] = np.nan
+        return out
+    out[..., :first] = np.nan
+    s = np.cumsum(z, axis=-1)
+    lo = max(first, n_full)
+    # out[k] = c[k+1] − c[k+1−n_full] = s[k] − s[k−n_full] (k ≥ n_full); s[k] − 0 at k = n_full−1
+    np.subtract(s[..., lo:], s[..., lo - n_full : n - n_full], out=out[..., lo:])
+    if first < lo:
+        np.subtract(s[..., first], 0, out=out[..., first])
+    if frac > 0:
+        tail = z[..., first - n_full : n - n_full]
+        tail *= frac
+        out[..., first:] += tail
     return out
 
 
