@@ -301,6 +301,7 @@ class Quantities:
             # one segment over the whole record: its result is the array (no copy)
             out = self._phasor_of(xs, s.rate_hz, float(self.t_s[0]))
             out.setflags(write=False)
+            self._cache[("|".join(todo), "phasor rows")] = out
             for j, r in enumerate(todo):
                 self._cache[(r, "phasor")] = out[j]
             return
@@ -313,8 +314,19 @@ class Quantities:
             t0 = float(self.t_s[s.start_idx])
             out[:, s.start_idx : s.stop_idx] = self._phasor_of(part, fs, t0)
         out.setflags(write=False)
+        self._cache[("|".join(todo), "phasor rows")] = out
         for j, r in enumerate(todo):
             self._cache[(r, "phasor")] = out[j]
+
+    def phasor_rows(self, roles: list[str]) -> np.ndarray:
+        """The :meth:`phasor` of several roles as the rows of one array."""
+        block = self._cache.get(("|".join(roles), "phasor rows"))
+        return block if block is not None else np.stack([self.phasor(r) for r in roles])
+
+    def delta_rows(self, roles: list[str]) -> np.ndarray:
+        """The :meth:`delta` of several roles as the rows of one array."""
+        block = self._cache.get(("|".join(roles), "delta rows"))
+        return block if block is not None else np.stack([self.delta(r) for r in roles])
 
     def _stacked(self, roles: list[str]) -> np.ndarray:
         """The finite samples of several roles as the rows of one array (made once)."""
@@ -342,6 +354,7 @@ class Quantities:
                 continue
             out[:, s.start_idx : s.stop_idx] = superimposed(part, length=s.rate_hz / f)
         out.setflags(write=False)
+        self._cache[("|".join(todo), "delta rows")] = out
         for j, r in enumerate(todo):
             self._cache[(r, "delta")] = out[j]
 

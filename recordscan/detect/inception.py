@@ -201,6 +201,26 @@ def prefault_state(
     )
 
 
+def _robust_scales(rows: np.ndarray) -> list[float]:
+    """:func:`robust_scale` of each row (one 2-D median pass when all are finite)."""
+    if rows.shape[1] and np.isfinite(rows).all():
+        med = np.median(rows, axis=1)
+        dev = np.abs(rows - med[:, None])
+        return [float(1.4826 * m) for m in np.median(dev, axis=1)]
+    return [robust_scale(r) for r in rows]
+
+
+def _finite_medians(rows: np.ndarray) -> list[float]:
+    """Median of the finite values of each row (NaN for a row without any)."""
+    if rows.shape[1] and np.isfinite(rows).all():
+        return [float(m) for m in np.median(rows, axis=1)]
+    out = []
+    for r in rows:
+        ok = np.isfinite(r)
+        out.append(fast_median(r[ok]) if np.any(ok) else float("nan"))
+    return out
+
+
 def detect_inception(
     record: Record,
     *,
@@ -251,28 +271,28 @@ def detect_inception(
     roles = [(I_LINE[p], current_fraction) for p in PHASES] + [
         (V_LINE[p], voltage_fraction) for p in PHASES
     ]
-    used = []
-    q.prefetch_phasors(role for role, _ in roles)
-    q.prefetch_deltas(role for role, _ in roles)
-    for role, frac in roles:
-        if q.values(role) is None:
-            continue
-        used.append(role)
-        d = q.delta(role)
-        sigma = robust_scale(d[base])
-        mag = np.abs(q.phasor(role)[base])
-        finite = np.isfinite(mag)
-        peak = np.sqrt(2.0) * fast_median(mag[finite]) if np.any(finite) else 0.0
+    present = [(role, frac) for role, frac in roles if q.values(role) is not None]
+    used = [role for role, _ in present]
+    if used:
+        q.prefetch_phasors(used)
+        q.prefetch_deltas(used)
+        deltas = q.delta_rows(used)
+        abs_d = np.abs(deltas)
+        sigmas = _robust_scales(deltas[:, base])
+        mags = np.abs(q.phasor_rows(used)[:, base])
+        peaks = _finite_medians(mags)
+    for j, (role, frac) in enumerate(present):
+        sigma = sigmas[j]
+        peak = np.sqrt(2.0) * peaks[j] if np.isfinite(peaks[j]) else 0.0
         thr = max(noise_factor * sigma, frac * peak, 1e-9)
-        abs_d = np.abs(d)
         with np.errstate(invalid="ignore"):
-            mask = abs_d[ref_idx:] > thr
+            mask = abs_d[j, ref_idx:] > thr
         cross = first_sustained(mask, n_hold=hold)
         if cross is None:
             continue
         cross += ref_idx
-        onset = last_crossing_before(abs_d, cross, level=max(3.0 * sigma, 1e-12))
-        ratio = float(np.nanmax(abs_d[cross : cross + hold]) / thr)
+        onset = last_crossing_before(abs_d[j], cross, level=max(3.0 * sigma, 1e-12))
+        ratio = float(np.nanmax(abs_d[j, cross : cross + hold]) / thr)
         if best is None or onset < best[0]:
             best = (onset, cross, role, ratio, sigma)
     if not used:

@@ -31,19 +31,20 @@ def runs(mask: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 def first_sustained(mask: np.ndarray, *, n_hold: int, start: int = 0) -> int | None:
     """Index of the first sample at or after ``start`` that begins ≥ ``n_hold`` True samples."""
     m = np.asarray(mask, dtype=bool).reshape(-1)[start:]
+    hold = max(1, n_hold)
     # the False samples bound the runs: a run begins after each False (or at the start) and
     # lasts to the next False (or the end)
     off = np.flatnonzero(~m)
     if off.size == 0:
-        return start if m.size >= max(1, n_hold) else None
-    bounds = np.empty(off.size + 2, dtype=np.int64)
-    bounds[0] = -1
-    bounds[1:-1] = off
-    bounds[-1] = m.size
-    long = np.flatnonzero(np.diff(bounds) > max(1, n_hold))
-    if long.size == 0:
-        return None
-    return int(bounds[long[0]] + 1 + start)
+        return start if m.size >= hold else None
+    if off[0] >= hold:  # the run from the start
+        return start
+    long = np.flatnonzero(np.diff(off) > hold)
+    if long.size:
+        return int(off[long[0]]) + 1 + start
+    if m.size - 1 - off[-1] >= hold:  # the run to the end
+        return int(off[-1]) + 1 + start
+    return None
 
 
 def hysteresis_state(cf: np.ndarray, *, on: float, off: float, initial: bool = False) -> np.ndarray:
