@@ -406,8 +406,15 @@ def _refine(
     w = 2 * np.pi * f_hz
 
     def basis(x: np.ndarray) -> np.ndarray:
-        y = x * f_hz
-        return np.stack([np.cos(w * x), np.sin(w * x), np.ones_like(x), y, y * y], axis=1)
+        # columns cos, sin, 1, y, y² written in place (the values np.stack would gather)
+        out = np.empty((x.shape[0], 5))
+        wx = w * x
+        np.cos(wx, out=out[:, 0])
+        np.sin(wx, out=out[:, 1])
+        out[:, 2] = 1.0
+        np.multiply(x, f_hz, out=out[:, 3])
+        np.multiply(out[:, 3], out[:, 3], out=out[:, 4])
+        return out
 
     def scan(k_fit: int, k_top: int) -> tuple[int, float] | None:
         fit_b = min(k_fit + int(np.ceil(1.5 * n)), hi)

@@ -9,6 +9,7 @@ sinusoidal.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable
 from dataclasses import dataclass
 
@@ -340,7 +341,20 @@ class _FreeComponentFit:
         return _solve_rows(self.a, self.x)
 
     def __call__(self, fr: float) -> float:
-        return self.fit(fr)[1]
+        """RMS residual with the free component at ``fr`` (the golden-section objective)."""
+        a, x, res = self.a, self.x, self.w
+        np.multiply(2 * np.pi * fr, self.t, out=res)
+        np.cos(res, out=a[3])
+        np.sin(res, out=a[4])
+        if _SOLVE1 is not None:
+            coef = _SOLVE1(a @ a.T, a @ x, signature="dd->d")
+            np.dot(coef, a, out=res)
+            np.subtract(x, res, out=res)
+            res *= res
+            r = math.sqrt(np.add.reduce(res) / res.shape[0])
+            if math.isfinite(r):
+                return r
+        return _solve_rows(a, x)[1]  # (a singular system: the checked path)
 
 
 def _basis(t: np.ndarray, freqs: list[float]) -> np.ndarray:
@@ -396,7 +410,7 @@ def fit_beat(
     if dur < 3.0 / f_hz or res1 < min_free_fraction * forced:
         # too short to resolve a beat, or the forced sinusoid leaves too little to be one
         return BeatFit(forced, 0.0, None, None, peak, res1)
-    a = np.stack([np.ones_like(t), np.cos(2 * np.pi * f_hz * t), np.sin(2 * np.pi * f_hz * t)], 1)
+    a = np.ascontiguousarray(fixed.T)  # columns 1, cos, sin: the same values, sample-major
     resid = x - a @ coef1
     n_fft = int(2 ** np.ceil(np.log2(max(8 * x.shape[0], 1024))))
     spec = np.abs(np.fft.rfft(resid * np.hanning(x.shape[0]), n_fft))
