@@ -167,7 +167,7 @@ def detect_reclose(
         ):
             # a moderate current with the phase voltage fully back is the charging current of
             # a long line, not a fault (a fault holds the voltage down)
-            v_after = q.magnitude(V_LINE[phase])[k_a:k_b]
+            v_after = np.abs(q.phasor(V_LINE[phase])[k_a:k_b])
             v_after = v_after[np.isfinite(v_after)]
             if v_after.size and fast_median(v_after) > 0.95 * v_phase_rms_v:
                 onto_fault = False

@@ -184,9 +184,9 @@ def arc_trace(
         h = np.sqrt(np.maximum(p_h - p_noise, 0.0)) / np.sqrt(np.maximum(rms**2 - p_noise, 1e-30))
         h = np.where(p_h > significance * p_noise, h, np.minimum(h, 0.5 * h_off))
     h[~np.isfinite(h_raw)] = np.nan
-    mag = q.magnitude(role)[a:b]
+    mag = np.abs(q.phasor(role)[a:b])
     others = [
-        q.magnitude(V_LINE[p])[a:b]
+        np.abs(q.phasor(V_LINE[p])[a:b])
         for p in PHASES
         if p != phase and q.values(V_LINE[p]) is not None
     ]
