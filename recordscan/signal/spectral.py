@@ -23,12 +23,21 @@ from recordscan.signal.phasor import (
     sliding_rms,
 )
 
-try:  # the gufunc behind np.linalg.solve (its wrapper's checks cost more than a 5x5 solve)
-    from numpy.linalg import _umath_linalg
 
-    _SOLVE1 = _umath_linalg.solve1
-except (ImportError, AttributeError):  # pragma: no cover - another numpy layout
-    _SOLVE1 = None
+def _gesv_gufunc() -> Callable[..., np.ndarray] | None:
+    """The gufunc behind ``np.linalg.solve`` (its wrapper's checks cost more than a 5×5
+    solve), when this numpy has it and it solves a known system; else None."""
+    try:
+        from numpy.linalg import _umath_linalg
+
+        fn = _umath_linalg.solve1
+        got = fn(np.array([[2.0, 1.0], [1.0, 3.0]]), np.array([3.0, 5.0]), signature="dd->d")
+    except Exception:  # pragma: no cover - another numpy layout: np.linalg.solve is used
+        return None
+    return fn if np.allclose(got, [0.8, 1.4], rtol=0, atol=1e-12) else None
+
+
+_SOLVE1 = _gesv_gufunc()
 
 __all__ = [
     "BeatFit",
