@@ -172,6 +172,7 @@ class Quantities:
             self._seg_id[s.start_idx : s.stop_idx] = k
         self._cache: dict[tuple[str, str], np.ndarray] = {}
         self._kernels: dict[tuple[str, str], tuple[np.ndarray, np.ndarray]] = {}
+        self._by_role: dict[str, np.ndarray | None] = {}
 
     # ------------------------------------------------------------------ time helpers
     @property
@@ -203,8 +204,12 @@ class Quantities:
     # ------------------------------------------------------------------ channels
     def values(self, role: str) -> np.ndarray | None:
         """Samples of the analog channel with ``role`` or None."""
-        ch = self.record.analog_by_role(role)
-        return None if ch is None else ch.values
+        try:
+            return self._by_role[role]
+        except KeyError:
+            ch = self.record.analog_by_role(role)
+            self._by_role[role] = out = None if ch is None else ch.values
+            return out
 
     def status(self, role: str) -> np.ndarray | None:
         """Samples of the digital channel with ``role`` or None."""
