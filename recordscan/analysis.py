@@ -537,11 +537,14 @@ def analyse(
             remote = decimate_record(remote, min_samples_per_cycle=opts.min_samples_per_cycle)
     q = Quantities(record)
     inc = _inception(record, q, opts)
-    f_meas = measure_frequency(record, until_s=None if inc is None else inc.t_s)
+    f_until = None if inc is None else inc.t_s
+    f_meas = measure_frequency(record, until_s=f_until)
     if abs(f_meas - record.frequency_hz) > opts.frequency_tolerance_hz:
         q = Quantities(record, f_hz=f_meas)
         warns.append(f"DFT windows follow the measured frequency {f_meas:.3f} Hz")
         inc = _inception(record, q, opts)
+    # the pre-fault state measures the frequency up to the inception again: reuse it
+    known_f = {f_until: f_meas} if f_until is not None else {}
     kv = None if ld is None else ld.voltage_v / 1e3
     common = {
         "record": full,
@@ -550,7 +553,7 @@ def analyse(
         "frequency_hz": q.f_hz,
     }
     if inc is None:
-        pre = _safe_prefault(record, q, None, warns)
+        pre = _safe_prefault(record, q, None, warns, known_f)
         cls = classify_event(
             quantities=q, inception=None, selection=None, openings={}, prefault=pre
         )
@@ -561,7 +564,7 @@ def analyse(
             confidence=cls.confidence,
             **common,
         )
-    pre = _safe_prefault(record, q, inc.t_s, warns)
+    pre = _safe_prefault(record, q, inc.t_s, warns, known_f)
     openings = detect_pole_openings(
         record, after_s=inc.t_s, quantities=q, quiet_cycles=opts.quiet_cycles
     )
@@ -841,10 +844,15 @@ def _arc_current(
 
 
 def _safe_prefault(
-    record: Record, q: Quantities, before_s: float | None, warns: list[str]
+    record: Record,
+    q: Quantities,
+    before_s: float | None,
+    warns: list[str],
+    known_f: Mapping[float, float],
 ) -> PrefaultState | None:
+    f_hz = None if before_s is None else known_f.get(before_s)
     try:
-        return prefault_state(record, before_s=before_s, quantities=q)
+        return prefault_state(record, before_s=before_s, quantities=q, frequency_hz=f_hz)
     except DetectionError as exc:
         warns.append(str(exc))
         return None

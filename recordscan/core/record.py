@@ -48,6 +48,25 @@ def _sealed(a: np.ndarray) -> bool:
     return isinstance(base, np.ndarray) and base.flags.owndata and not base.flags.writeable
 
 
+def _uniform(t: np.ndarray, chunk: int = 8192) -> bool:
+    """True when no sample interval of ``t`` differs from the next by more than 1 % of the
+    smallest interval (then none differs by 1 % of its own: one uniform segment).
+
+    Worked through in chunks so that no record-sized temporary is made (the same interval
+    values as ``np.diff``).
+    """
+    d_max = 0.0
+    dt_min = np.inf
+    for lo in range(0, t.shape[0] - 1, chunk):
+        part = t[lo : lo + chunk + 2]
+        dt = part[1:] - part[:-1]
+        dt_min = min(dt_min, float(dt.min()))
+        if dt.shape[0] > 1:
+            dd = dt[1:] - dt[:-1]
+            d_max = max(d_max, float(dd.max()), -float(dd.min()))
+    return bool(d_max <= 0.01 * max(dt_min, 1e-15))
+
+
 def _readonly(a: np.ndarray, dtype: type | np.dtype) -> np.ndarray:
     # an array that is already read-only, of the right dtype and owns its memory (or is a
     # read-only view of a read-only array that does) cannot be changed by the caller without
@@ -365,6 +384,10 @@ class Record:
         n = self.n_samples
         if n < 2:
             return (Segment(0, n, 0.0),) if n else ()
+        if n > 2 and _uniform(self.t_s):
+            # the usual record: one segment (what the loop below finds for it)
+            interval = float(self.t_s[1] - self.t_s[0])
+            return (Segment(0, n, 1.0 / interval if interval > 0 else 0.0),)
         dt = np.diff(self.t_s)
         # runs of equal intervals (within 1 %); each run of intervals [a, b) spans samples a..b
         change = np.abs(np.diff(dt)) > 0.01 * np.maximum(dt[:-1], 1e-15)

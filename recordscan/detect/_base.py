@@ -15,13 +15,25 @@ import numpy as np
 from recordscan.core.record import Record, Segment
 from recordscan.core.roles import I_LINE, PHASES, POLE_CLOSED, V_LINE
 from recordscan.errors import DetectionError
-from recordscan.signal.charfunc import fast_median, robust_scale
+from recordscan.signal.charfunc import finite_array_median, robust_scale
 from recordscan.signal.filters import highpass
-from recordscan.signal.phasor import dft_kernel, full_cycle_phasor, sliding_rms
+from recordscan.signal.phasor import (
+    dft_kernel,
+    real_parts_phasor,
+    samples_per_cycle,
+    sliding_rms,
+)
 from recordscan.signal.sequence import superimposed
 from recordscan.signal.spectral import harmonic_ratio
 
-__all__ = ["HARMONICS", "Quantities", "decimate_record", "finite_median", "where"]
+__all__ = [
+    "HARMONICS",
+    "Quantities",
+    "decimate_record",
+    "finite_median",
+    "finite_values",
+    "where",
+]
 
 #: harmonic orders of the arc signature (those below 0.45·fs are used)
 HARMONICS: tuple[int, ...] = (3, 5, 7)
@@ -29,9 +41,11 @@ HARMONICS: tuple[int, ...] = (3, 5, 7)
 
 def finite_median(x: np.ndarray) -> float:
     """Median of the finite values (NaN when there are none), without a warning."""
-    x = np.asarray(x, dtype=np.float64)
-    x = x[np.isfinite(x)]
-    return fast_median(x) if x.size else float("nan")
+    x = np.asarray(x, dtype=np.float64).reshape(-1)
+    ok = np.isfinite(x)
+    if not ok.all():
+        x = x[ok]
+    return finite_array_median(x) if x.size else float("nan")
 
 
 def decimate_record(record: Record, *, min_samples_per_cycle: float = 40.0) -> Record:
@@ -105,9 +119,12 @@ def _block_mean(x: np.ndarray, lo: int, n_blk: int, k: int) -> np.ndarray:
     return out
 
 
-def _finite(x: np.ndarray) -> np.ndarray:
-    """``np.nan_to_num(x)``, or ``x`` itself (read-only channel data) when all finite."""
+def finite_values(x: np.ndarray) -> np.ndarray:
+    """``np.nan_to_num(x)``, or ``x`` itself (no copy) when all finite: for reading only."""
     return x if np.isfinite(x).all() else np.nan_to_num(x)
+
+
+_finite = finite_values
 
 
 def _joined(parts: list[np.ndarray]) -> np.ndarray:
@@ -154,6 +171,8 @@ class Quantities:
         for k, s in enumerate(self.segments):
             self._seg_id[s.start_idx : s.stop_idx] = k
         self._cache: dict[tuple[str, str], np.ndarray] = {}
+        self._kernels: dict[tuple[str, str], tuple[np.ndarray, np.ndarray]] = {}
+        self._by_role: dict[str, np.ndarray | None] = {}
 
     # ------------------------------------------------------------------ time helpers
     @property
@@ -185,8 +204,12 @@ class Quantities:
     # ------------------------------------------------------------------ channels
     def values(self, role: str) -> np.ndarray | None:
         """Samples of the analog channel with ``role`` or None."""
-        ch = self.record.analog_by_role(role)
-        return None if ch is None else ch.values
+        try:
+            return self._by_role[role]
+        except KeyError:
+            ch = self.record.analog_by_role(role)
+            self._by_role[role] = out = None if ch is None else ch.values
+            return out
 
     def status(self, role: str) -> np.ndarray | None:
         """Samples of the digital channel with ``role`` or None."""
@@ -238,11 +261,18 @@ class Quantities:
             self._cache[key] = arr
         return self._cache[key]
 
-    def _kernel(self, fs: float, t0: float, n: int) -> np.ndarray:
+    def _kernel(self, fs: float, t0: float, n: int) -> tuple[np.ndarray, np.ndarray]:
+        """Real and imaginary parts of the DFT kernel of a segment (computed once)."""
         key = (f"{fs!r}:{t0!r}:{n}", "kernel")
-        if key not in self._cache:
-            self._cache[key] = dft_kernel(n, fs_hz=fs, f_hz=self.f_hz, t0_s=t0)
-        return self._cache[key]
+        if key not in self._kernels:
+            k = dft_kernel(n, fs_hz=fs, f_hz=self.f_hz, t0_s=t0)
+            self._kernels[key] = (k.real.copy(), k.imag.copy())
+        return self._kernels[key]
+
+    def _phasor_of(self, x: np.ndarray, fs: float, t0: float) -> np.ndarray:
+        """:func:`full_cycle_phasor` of finite samples ``x`` (rows) of one segment."""
+        kr, ki = self._kernel(fs, t0, x.shape[-1])
+        return real_parts_phasor(x, kr, ki, samples_per_cycle(fs, self.f_hz))
 
     def phasor(self, role: str) -> np.ndarray:
         """Sliding full-cycle phasor (RMS, absolute-time reference) of ``role``."""
@@ -252,8 +282,7 @@ class Quantities:
             def one(p: np.ndarray, fs: float, t0: float) -> np.ndarray:
                 if p.shape[0] < fs / f + 1:
                     return np.full(p.shape[0], np.nan, dtype=complex)
-                k = self._kernel(fs, t0, p.shape[0])
-                return full_cycle_phasor(p, fs_hz=fs, f_hz=f, t0_s=t0, kernel=k)
+                return self._phasor_of(p, fs, t0)
 
             return self._per_segment(x, one, np.complex128)
 
@@ -270,19 +299,14 @@ class Quantities:
         if len(todo) < 2:
             return
         f = self.f_hz
-        xs = np.stack([_finite(self.values(r)) for r in todo])
+        xs = self._stacked(todo)
         whole = len(self.segments) == 1 and self.segments[0].n_samples == xs.shape[1]
         s = self.segments[0]
         if whole and xs.shape[1] >= 2 and xs.shape[1] >= s.rate_hz / f + 1:
             # one segment over the whole record: its result is the array (no copy)
-            out = full_cycle_phasor(
-                xs,
-                fs_hz=s.rate_hz,
-                f_hz=f,
-                t0_s=float(self.t_s[0]),
-                kernel=self._kernel(s.rate_hz, float(self.t_s[0]), xs.shape[1]),
-            )
+            out = self._phasor_of(xs, s.rate_hz, float(self.t_s[0]))
             out.setflags(write=False)
+            self._cache[("|".join(todo), "phasor rows")] = out
             for j, r in enumerate(todo):
                 self._cache[(r, "phasor")] = out[j]
             return
@@ -293,13 +317,51 @@ class Quantities:
             if part.shape[1] < 2 or part.shape[1] < fs / f + 1:
                 continue
             t0 = float(self.t_s[s.start_idx])
-            k = self._kernel(fs, t0, part.shape[1])
-            out[:, s.start_idx : s.stop_idx] = full_cycle_phasor(
-                part, fs_hz=fs, f_hz=f, t0_s=t0, kernel=k
-            )
+            out[:, s.start_idx : s.stop_idx] = self._phasor_of(part, fs, t0)
         out.setflags(write=False)
+        self._cache[("|".join(todo), "phasor rows")] = out
         for j, r in enumerate(todo):
             self._cache[(r, "phasor")] = out[j]
+
+    def phasor_rows(self, roles: list[str]) -> np.ndarray:
+        """The :meth:`phasor` of several roles as the rows of one array."""
+        block = self._cache.get(("|".join(roles), "phasor rows"))
+        return block if block is not None else np.stack([self.phasor(r) for r in roles])
+
+    def delta_rows(self, roles: list[str]) -> np.ndarray:
+        """The :meth:`delta` of several roles as the rows of one array."""
+        block = self._cache.get(("|".join(roles), "delta rows"))
+        return block if block is not None else np.stack([self.delta(r) for r in roles])
+
+    def _stacked(self, roles: list[str]) -> np.ndarray:
+        """The finite samples of several roles as the rows of one array (made once)."""
+        key = ("|".join(roles), "stack")
+        if key not in self._cache:
+            self._cache[key] = np.stack([_finite(self.values(r)) for r in roles])
+        return self._cache[key]
+
+    def prefetch_deltas(self, roles: Iterable[str]) -> None:
+        """Compute the :meth:`delta` of several roles together (one 2-D pass per segment;
+        the same values as one role at a time)."""
+        todo = [
+            r
+            for r in dict.fromkeys(roles)
+            if (r, "delta") not in self._cache and self.values(r) is not None
+        ]
+        if len(todo) < 2:
+            return
+        f = self.f_hz
+        xs = self._stacked(todo)
+        out = np.full(xs.shape, np.nan)
+        for s in self.segments:
+            part = xs[:, s.start_idx : s.stop_idx]
+            if part.shape[1] < 2 or part.shape[1] < s.rate_hz / f + 2:
+                continue
+            out[:, s.start_idx : s.stop_idx] = superimposed(part, length=s.rate_hz / f)
+        out.setflags(write=False)
+        self._cache[("|".join(todo), "delta rows")] = out
+        for j, r in enumerate(todo):
+            self._cache[(r, "delta")] = out[j]
 
     def magnitude(self, role: str) -> np.ndarray:
         """Magnitude of :meth:`phasor`."""

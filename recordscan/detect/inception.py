@@ -17,7 +17,7 @@ import numpy as np
 from recordscan.core.events import Event, Evidence
 from recordscan.core.record import Record
 from recordscan.core.roles import I_LINE, PHASES, V_LINE
-from recordscan.detect._base import Quantities, where
+from recordscan.detect._base import Quantities, finite_values, where
 from recordscan.errors import DetectionError
 from recordscan.signal.charfunc import fast_median, robust_scale
 from recordscan.signal.onset import first_sustained, last_crossing_before
@@ -110,7 +110,7 @@ def measure_frequency(record: Record, *, until_s: float | None = None) -> float:
         ch = record.analog_by_role(role)
         if ch is None:
             continue
-        x = np.nan_to_num(ch.values[seg.start_idx : stop])
+        x = finite_values(ch.values[seg.start_idx : stop])
         if x.size and np.ptp(x) > 0:
             return estimate_frequency(x, fs_hz=seg.rate_hz, f_hz=record.frequency_hz)
     return float(record.frequency_hz)
@@ -122,6 +122,7 @@ def prefault_state(
     before_s: float | None = None,
     quantities: Quantities | None = None,
     n_cycles: float = 1.0,
+    frequency_hz: float | None = None,
 ) -> PrefaultState:
     """Measure the steady state in the ``n_cycles`` before ``before_s`` (fault inception).
 
@@ -135,6 +136,8 @@ def prefault_state(
         Shared computed quantities.
     n_cycles : float
         Window length in cycles (phasors at the window end use one cycle).
+    frequency_hz : float, optional
+        ``measure_frequency(record, until_s=before_s)`` when the caller has it already.
 
     Returns
     -------
@@ -157,7 +160,7 @@ def prefault_state(
         )
     t0 = max(t_first_valid, t1 - n_cycles * q.cycle_s)
     i1 = max(q.idx(t1) - 1, 0)
-    f_meas = measure_frequency(record, until_s=t1)
+    f_meas = measure_frequency(record, until_s=t1) if frequency_hz is None else frequency_hz
     warns: list[str] = []
     dev = f_meas - record.frequency_hz
     if abs(dev) > 0.05 * record.frequency_hz:
@@ -196,6 +199,26 @@ def prefault_state(
         warnings=tuple(warns),
         **out,  # type: ignore[arg-type]
     )
+
+
+def _robust_scales(rows: np.ndarray) -> list[float]:
+    """:func:`robust_scale` of each row (one 2-D median pass when all are finite)."""
+    if rows.shape[1] and np.isfinite(rows).all():
+        med = np.median(rows, axis=1)
+        dev = np.abs(rows - med[:, None])
+        return [float(1.4826 * m) for m in np.median(dev, axis=1)]
+    return [robust_scale(r) for r in rows]
+
+
+def _finite_medians(rows: np.ndarray) -> list[float]:
+    """Median of the finite values of each row (NaN for a row without any)."""
+    if rows.shape[1] and np.isfinite(rows).all():
+        return [float(m) for m in np.median(rows, axis=1)]
+    out = []
+    for r in rows:
+        ok = np.isfinite(r)
+        out.append(fast_median(r[ok]) if np.any(ok) else float("nan"))
+    return out
 
 
 def detect_inception(
@@ -248,26 +271,28 @@ def detect_inception(
     roles = [(I_LINE[p], current_fraction) for p in PHASES] + [
         (V_LINE[p], voltage_fraction) for p in PHASES
     ]
-    used = []
-    q.prefetch_phasors(role for role, _ in roles)
-    for role, frac in roles:
-        if q.values(role) is None:
-            continue
-        used.append(role)
-        d = q.delta(role)
-        sigma = robust_scale(d[base])
-        mag = q.magnitude(role)
-        finite = np.isfinite(mag[base])
-        peak = np.sqrt(2.0) * fast_median(mag[base][finite]) if np.any(finite) else 0.0
+    present = [(role, frac) for role, frac in roles if q.values(role) is not None]
+    used = [role for role, _ in present]
+    if used:
+        q.prefetch_phasors(used)
+        q.prefetch_deltas(used)
+        deltas = q.delta_rows(used)
+        abs_d = np.abs(deltas)
+        sigmas = _robust_scales(deltas[:, base])
+        mags = np.abs(q.phasor_rows(used)[:, base])
+        peaks = _finite_medians(mags)
+    for j, (role, frac) in enumerate(present):
+        sigma = sigmas[j]
+        peak = np.sqrt(2.0) * peaks[j] if np.isfinite(peaks[j]) else 0.0
         thr = max(noise_factor * sigma, frac * peak, 1e-9)
         with np.errstate(invalid="ignore"):
-            mask = np.abs(d) > thr
-        mask[:ref_idx] = False
-        cross = first_sustained(mask, n_hold=hold, start=ref_idx)
+            mask = abs_d[j, ref_idx:] > thr
+        cross = first_sustained(mask, n_hold=hold)
         if cross is None:
             continue
-        onset = last_crossing_before(np.abs(d), cross, level=max(3.0 * sigma, 1e-12))
-        ratio = float(np.nanmax(np.abs(d[cross : cross + hold])) / thr)
+        cross += ref_idx
+        onset = last_crossing_before(abs_d[j], cross, level=max(3.0 * sigma, 1e-12))
+        ratio = float(np.nanmax(abs_d[j, cross : cross + hold]) / thr)
         if best is None or onset < best[0]:
             best = (onset, cross, role, ratio, sigma)
     if not used:

@@ -16,7 +16,7 @@ import numpy as np
 from recordscan.core.events import Event, Evidence
 from recordscan.core.record import Record
 from recordscan.core.roles import I_LINE, PHASES, POLE_CLOSED, TRIP, TRIP_3P
-from recordscan.detect._base import Quantities
+from recordscan.detect._base import Quantities, finite_values
 from recordscan.signal.charfunc import fast_median
 from recordscan.signal.onset import first_sustained
 
@@ -117,7 +117,7 @@ def current_quiet_threshold(
     ``max(fraction·peak, 8·σ)`` with ``peak`` the largest ``|i|`` in the three cycles from
     ``start`` and σ the current's noise (:meth:`Quantities.noise`).
     """
-    seg = np.nan_to_num(i[start : start + int(3 * n_cycle) + 1])
+    seg = finite_values(i[start : start + int(3 * n_cycle) + 1])
     peak = float(np.max(np.abs(seg))) if seg.size else 0.0
     return max(fraction * peak, 8.0 * sigma, 1e-9), peak
 
@@ -147,9 +147,10 @@ def _current_zero_opening(
         return None
     n = q.n_cycle(after_idx)
     thr, _ = current_quiet_threshold(i, start=after_idx, n_cycle=n, sigma=q.noise(I_LINE[phase]))
-    quiet = np.abs(np.nan_to_num(i)) < thr
-    quiet[:after_idx] = False
-    k = first_sustained(quiet, n_hold=max(3, round(quiet_cycles * n)), start=after_idx)
+    quiet = np.abs(finite_values(i[after_idx:])) < thr
+    k = first_sustained(quiet, n_hold=max(3, round(quiet_cycles * n)))
+    if k is not None:
+        k += after_idx
     if k is None or k <= after_idx:
         # never interrupted, or already quiet: it carried no current to interrupt
         return None

@@ -15,7 +15,7 @@ import numpy as np
 from recordscan.core.events import Event, Evidence
 from recordscan.core.record import Record
 from recordscan.core.roles import I_LINE, PHASES, POLE_CLOSED, V_LINE
-from recordscan.detect._base import Quantities
+from recordscan.detect._base import Quantities, finite_values
 from recordscan.signal.charfunc import fast_median
 from recordscan.signal.onset import first_sustained, last_crossing_before
 
@@ -167,7 +167,7 @@ def detect_reclose(
         ):
             # a moderate current with the phase voltage fully back is the charging current of
             # a long line, not a fault (a fault holds the voltage down)
-            v_after = q.magnitude(V_LINE[phase])[k_a:k_b]
+            v_after = np.abs(q.phasor(V_LINE[phase])[k_a:k_b])
             v_after = v_after[np.isfinite(v_after)]
             if v_after.size and fast_median(v_after) > 0.95 * v_phase_rms_v:
                 onto_fault = False
@@ -188,8 +188,10 @@ def _three_pole_trip(q: Quantities, *, after: int) -> Event | None:
             return None
         n = q.n_cycle(after)
         thr, _ = current_quiet_threshold(i, start=after, n_cycle=n, sigma=q.noise(I_LINE[p]))
-        quiet = np.abs(np.nan_to_num(i)) < thr
-        k = first_sustained(quiet, n_hold=max(3, round(0.75 * n)), start=after)
+        quiet = np.abs(finite_values(i[after:])) < thr
+        k = first_sustained(quiet, n_hold=max(3, round(0.75 * n)))
+        if k is not None:
+            k += after
         if k is None:
             return None
         ks.append(k)

@@ -15,6 +15,7 @@ import numpy as np
 from recordscan.core.events import Event
 from recordscan.core.record import Record
 from recordscan.core.roles import I_LINE, POLE_CLOSED, V_LINE
+from recordscan.detect._base import finite_values
 from recordscan.detect.pole_opening import PoleOpening, zero_crossing
 from recordscan.signal.charfunc import robust_scale
 from recordscan.signal.onset import last_crossing_before
@@ -39,7 +40,7 @@ def refine_inception(full: Record, inc: Event) -> Event:
     hi = min(seg.stop_idx, k + int(0.5 * n))
     if k - lo < 2.5 * n:
         return inc
-    d = superimposed(np.nan_to_num(ch.values[lo:hi]), length=n)
+    d = superimposed(finite_values(ch.values[lo:hi]), length=n)
     base = d[int(np.ceil(n)) + 1 : int(np.ceil(2 * n))]
     sigma = robust_scale(base)
     jump = np.abs(d[k - lo - int(0.1 * n) :])
@@ -68,7 +69,7 @@ def refine_opening(full: Record, op: PoleOpening) -> PoleOpening:
     cyc = 1.0 / full.frequency_hz
     lo = int(np.searchsorted(t, op.t_s - 0.5 * cyc))
     hi = int(np.searchsorted(t, op.t_s + 0.75 * cyc))
-    above = np.flatnonzero(np.abs(np.nan_to_num(ch.values[lo:hi])) >= thr)
+    above = np.flatnonzero(np.abs(finite_values(ch.values[lo:hi])) >= thr)
     if above.size == 0 or lo + above[-1] + 1 >= hi:
         return op
     k = lo + int(above[-1]) + 1
@@ -109,7 +110,7 @@ def refine_restrike(full: Record, ev: Event) -> Event:
     hi = int(np.searchsorted(t, ev.t_s + 0.06 * cyc))
     if hi - lo < 3:
         return ev
-    av = np.abs(np.nan_to_num(ch.values[lo:hi]))
+    av = np.abs(finite_values(ch.values[lo:hi]))
     j = int(np.argmax(av[:-1] - av[1:]))
     k = lo + j + 1
     dt = float(t[k] - t[k - 1])

@@ -17,9 +17,9 @@ import numpy as np
 from recordscan.core.events import Event, Evidence
 from recordscan.core.record import Record
 from recordscan.core.roles import V_LINE
-from recordscan.detect._base import Quantities
+from recordscan.detect._base import Quantities, finite_values
 from recordscan.detect.secondary_arc import ArcTrace
-from recordscan.signal.charfunc import fast_median
+from recordscan.signal.charfunc import fast_median, finite_array_median
 from recordscan.signal.filters import moving_average, running_max
 from recordscan.signal.onset import runs
 
@@ -51,11 +51,13 @@ def local_arc_level(
     out = np.full(n, floor)
     block = max(1, int(block))
     level = floor
+    finite = bool(np.isfinite(abs_v).all())
     for j in range(0, n, block):
         lo = max(0, j - block)
         sel = burning[lo : j + block]
-        if np.any(sel):
-            level = max(fast_median(abs_v[lo : j + block][sel]), floor)
+        if sel.any():
+            part = abs_v[lo : j + block][sel]
+            level = max(finite_array_median(part) if finite else fast_median(part), floor)
         out[j : j + block] = level
     return out
 
@@ -111,7 +113,7 @@ def detect_restrikes(
     b = trace.stop_idx if until_idx is None else min(until_idx, trace.stop_idx)
     if b - a < 4:
         return []
-    v = np.nan_to_num(q.values(role)[a:b])
+    v = finite_values(q.values(role)[a:b])
     absv = np.abs(v)
     n = trace.n_cycle
     burning = trace.burning[: b - a]
@@ -238,7 +240,7 @@ def _level_resets(
     a = trace.start_idx
     n = trace.n_cycle
     nc = max(4, round(n))
-    raw = np.nan_to_num(q.values(role)[a:b])
+    raw = finite_values(q.values(role)[a:b])
     v = np.abs(raw)
     m = v.shape[0]
     if m < 6 * nc:

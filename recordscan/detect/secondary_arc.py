@@ -35,7 +35,7 @@ import numpy as np
 from recordscan.core.events import Event, Evidence
 from recordscan.core.record import Record
 from recordscan.core.roles import ARC_CURRENT, PHASES, V_LINE
-from recordscan.detect._base import Quantities, finite_median, where
+from recordscan.detect._base import Quantities, finite_median, finite_values, where
 from recordscan.detect.faint_loops import faint_loops_in_record
 from recordscan.detect.ringdown import faint_signature_end, ringdown_extinction
 from recordscan.errors import DetectionError
@@ -185,9 +185,9 @@ def arc_trace(
         h = np.sqrt(np.maximum(p_h - p_noise, 0.0)) / np.sqrt(np.maximum(rms**2 - p_noise, 1e-30))
         h = np.where(p_h > significance * p_noise, h, np.minimum(h, 0.5 * h_off))
     h[~np.isfinite(h_raw)] = np.nan
-    mag = q.magnitude(role)[a:b]
+    mag = np.abs(q.phasor(role)[a:b])
     others = [
-        q.magnitude(V_LINE[p])[a:b]
+        np.abs(q.phasor(V_LINE[p])[a:b])
         for p in PHASES
         if p != phase and q.values(V_LINE[p]) is not None
     ]
@@ -381,7 +381,7 @@ def _refine_full_rate(
         return None
     lo, hi = max(k_lo, seg.start_idx), min(k_hi, seg.stop_idx)
     n = seg.rate_hz / f_hz
-    v = np.nan_to_num(ch.values)
+    v = finite_values(ch.values)
     ref = _refine(v, t, kc=k_c, n=n, f_hz=f_hz, lo=lo, hi=hi, arc_amp=arc_amp)
     if ref is None or not k_c - window_cycles * n - 2 <= ref[0] <= k_c:
         return None
@@ -407,16 +407,24 @@ def _refine(
     w = 2 * np.pi * f_hz
 
     def basis(x: np.ndarray) -> np.ndarray:
-        y = x * f_hz
-        return np.stack([np.cos(w * x), np.sin(w * x), np.ones_like(x), y, y * y], axis=1)
+        # columns cos, sin, 1, y, y² written in place (the values np.stack would gather)
+        out = np.empty((x.shape[0], 5))
+        wx = w * x
+        np.cos(wx, out=out[:, 0])
+        np.sin(wx, out=out[:, 1])
+        out[:, 2] = 1.0
+        np.multiply(x, f_hz, out=out[:, 3])
+        np.multiply(out[:, 3], out[:, 3], out=out[:, 4])
+        return out
 
     def scan(k_fit: int, k_top: int) -> tuple[int, float] | None:
         fit_b = min(k_fit + int(np.ceil(1.5 * n)), hi)
         if fit_b - k_fit < max(8, int(n)):
             return None
         tt = t[k_fit:fit_b] - t[k_fit]
-        coef, *_ = np.linalg.lstsq(basis(tt), v[k_fit:fit_b], rcond=None)
-        res_fit = v[k_fit:fit_b] - basis(tt) @ coef
+        b_fit = basis(tt)
+        coef, *_ = np.linalg.lstsq(b_fit, v[k_fit:fit_b], rcond=None)
+        res_fit = v[k_fit:fit_b] - b_fit @ coef
         s_lo = max(lo, k_top - int(np.ceil(2.0 * n)))
         ts = t[s_lo : k_top + 1] - t[k_fit]
         res = np.abs(v[s_lo : k_top + 1] - basis(ts) @ coef)
@@ -556,7 +564,7 @@ def detect_extinction(
             ("the arc still burns at the end of the observation",),
         )
     warns: list[str] = []
-    v = np.nan_to_num(q.values(role))
+    v = finite_values(q.values(role))
     rd = None
     lo_rd = max(a - int(np.ceil(n)), q.segment_at(a).start_idx)
     if beat_check and q.segment_at(b - 1).start_idx <= lo_rd:

@@ -13,7 +13,14 @@ import numpy as np
 
 from recordscan.signal.filters import moving_average
 
-__all__ = ["fast_median", "normalised_delta", "robust_scale", "sta_lta", "step_score"]
+__all__ = [
+    "fast_median",
+    "finite_array_median",
+    "normalised_delta",
+    "robust_scale",
+    "sta_lta",
+    "step_score",
+]
 
 
 def fast_median(x: np.ndarray) -> float:
@@ -36,17 +43,19 @@ def fast_median(x: np.ndarray) -> float:
 
 def robust_scale(x: np.ndarray) -> float:
     """Return 1.4826·median(|x − median(x)|) over the finite samples (0 if none)."""
-    x = np.asarray(x, dtype=np.float64)
-    x = x[np.isfinite(x)]
+    x = np.asarray(x, dtype=np.float64).reshape(-1)
+    ok = np.isfinite(x)
+    if not ok.all():
+        x = x[ok]
     if x.size == 0:
         return 0.0
-    dev = x - _finite_median(x)
+    dev = x - finite_array_median(x)
     np.abs(dev, out=dev)
-    return float(1.4826 * _finite_median(dev))
+    return float(1.4826 * finite_array_median(dev))
 
 
-def _finite_median(x: np.ndarray) -> float:
-    """:func:`fast_median` of a non-empty 1-D float64 array known to be finite."""
+def finite_array_median(x: np.ndarray) -> float:
+    """:func:`fast_median` of a non-empty 1-D float64 array known to be finite (unchecked)."""
     n = x.shape[0]
     h = n // 2
     if n % 2:

@@ -4,6 +4,7 @@ running extremes."""
 from __future__ import annotations
 
 import functools
+from collections.abc import Callable
 
 import numpy as np
 from numpy.lib.stride_tricks import sliding_window_view
@@ -63,6 +64,13 @@ def _running(x: np.ndarray, n: int, fn: str) -> np.ndarray:
     n = max(1, int(n))
     if x.size == 0 or n == 1:
         return x.copy()
+    if x.ndim == 1 and np.isfinite(x).all():
+        # the same extremes by scipy's running-extreme filter (O(len) whatever n): the window
+        # [k - n + 1, k] with x[0] repeated before the start ("nearest" edge)
+        from scipy.ndimage import maximum_filter1d, minimum_filter1d
+
+        filt = maximum_filter1d if fn == "max" else minimum_filter1d
+        return filt(x, size=n, mode="nearest", origin=(n - 1) // 2)
     pad = np.concatenate((np.full(n - 1, x[0]), x))
     win = sliding_window_view(pad, n)
     return win.max(axis=1) if fn == "max" else win.min(axis=1)
@@ -86,8 +94,6 @@ def highpass(x: np.ndarray, *, fs_hz: float, cutoff_hz: float, order: int = 4) -
     sample of each pass), with the design and its initial states worked out once per
     setting. Returns a copy of ``x`` when it is too short for the filter's edge padding.
     """
-    from scipy.signal import sosfilt
-
     x = np.asarray(x, dtype=np.float64)
     sos, zi, edge = _highpass_design(int(order), float(cutoff_hz), float(fs_hz))
     sos = sos.copy()  # the cached design stays read-only; scipy wants a writable buffer
@@ -98,12 +104,46 @@ def highpass(x: np.ndarray, *, fs_hz: float, cutoff_hz: float, order: int = 4) -
         ext = np.concatenate((2 * x[0:1] - x[edge:0:-1], x, 2 * x[-1:] - x[-2 : -(edge + 2) : -1]))
     else:
         ext = x
-    y, _ = sosfilt(sos, ext, zi=zi * ext[0:1])
-    y, _ = sosfilt(sos, y[::-1], zi=zi * y[-1:])
+    y = _sosfilt_pass(sos, ext, zi * ext[0:1])
+    y = _sosfilt_pass(sos, y[::-1], zi * y[-1:])
     y = y[::-1]
     if edge > 0:
         y = y[edge:-edge]
     return y
+
+
+def _sosfilt_pass(sos: np.ndarray, x: np.ndarray, zi: np.ndarray) -> np.ndarray:
+    """``scipy.signal.sosfilt(sos, x, zi=zi)[0]`` of a 1-D float64 ``x``.
+
+    Calls scipy's compiled second-order-section loop directly (what ``sosfilt`` runs after
+    checking and reshaping its arguments; the same numbers) when it is available.
+    """
+    loop = _sosfilt_loop()
+    if loop is None:  # pragma: no cover - another scipy layout
+        from scipy.signal import sosfilt
+
+        return sosfilt(sos, x, zi=zi)[0]
+    y = np.array(x, dtype=np.float64, order="C").reshape(1, -1)
+    z = np.ascontiguousarray(zi, dtype=np.float64).reshape(1, sos.shape[0], 2).copy()
+    loop(sos, y, z)
+    return y[0]
+
+
+@functools.lru_cache(maxsize=1)
+def _sosfilt_loop() -> Callable[..., None] | None:
+    """scipy's compiled loop behind ``sosfilt`` (imported on first use), or None."""
+    try:
+        from scipy.signal import sosfilt
+        from scipy.signal._sosfilt import _sosfilt
+
+        sos = np.array([[0.5, 0.2, 0.1, 1.0, -0.3, 0.1]])
+        x = np.array([[1.0, -2.0, 0.5, 3.0]])
+        zi = np.array([[[0.1, -0.2]]])
+        want = sosfilt(sos, x[0], zi=zi[:, 0, :])[0]
+        _sosfilt(sos, x, zi)
+    except Exception:  # pragma: no cover - another scipy layout: sosfilt itself is used
+        return None
+    return _sosfilt if np.array_equal(x[0], want) else None
 
 
 @functools.lru_cache(maxsize=64)

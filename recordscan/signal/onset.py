@@ -15,23 +15,36 @@ __all__ = [
 
 def runs(mask: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Start and stop (exclusive) indices of the runs of True in ``mask``."""
-    m = np.asarray(mask, dtype=bool)
-    if m.size == 0:
+    m = np.asarray(mask, dtype=bool).reshape(-1)
+    n = m.size
+    if n == 0:
         return np.empty(0, dtype=np.int64), np.empty(0, dtype=np.int64)
-    padded = np.zeros(m.size + 2, dtype=np.int8)
-    padded[1:-1] = m.reshape(-1)
-    d = np.diff(padded)
-    return np.flatnonzero(d == 1), np.flatnonzero(d == -1)
+    # every change of state is a run's start or stop; they alternate, beginning with a
+    # start (a run at the very beginning starts at 0, one at the very end stops at n)
+    edges = np.flatnonzero(m[1:] != m[:-1]) + 1
+    head, tail = bool(m[0]), bool(m[-1])
+    if head or tail:
+        edges = np.concatenate(([0] if head else [], edges, [n] if tail else [])).astype(np.int64)
+    return edges[0::2], edges[1::2]
 
 
 def first_sustained(mask: np.ndarray, *, n_hold: int, start: int = 0) -> int | None:
     """Index of the first sample at or after ``start`` that begins ≥ ``n_hold`` True samples."""
-    m = np.asarray(mask, dtype=bool)[start:]
-    s, e = runs(m)
-    ok = np.flatnonzero((e - s) >= max(1, n_hold))
-    if ok.size == 0:
-        return None
-    return int(s[ok[0]] + start)
+    m = np.asarray(mask, dtype=bool).reshape(-1)[start:]
+    hold = max(1, n_hold)
+    # the False samples bound the runs: a run begins after each False (or at the start) and
+    # lasts to the next False (or the end)
+    off = np.flatnonzero(~m)
+    if off.size == 0:
+        return start if m.size >= hold else None
+    if off[0] >= hold:  # the run from the start
+        return start
+    long = np.flatnonzero(np.diff(off) > hold)
+    if long.size:
+        return int(off[long[0]]) + 1 + start
+    if m.size - 1 - off[-1] >= hold:  # the run to the end
+        return int(off[-1]) + 1 + start
+    return None
 
 
 def hysteresis_state(cf: np.ndarray, *, on: float, off: float, initial: bool = False) -> np.ndarray:

@@ -25,6 +25,7 @@ __all__ = [
     "frequency_from_phasor",
     "full_cycle_phasor",
     "half_cycle_phasor",
+    "real_parts_phasor",
     "samples_per_cycle",
     "sliding_rms",
     "sliding_window_sum",
@@ -81,9 +82,21 @@ def sliding_window_sum(z: np.ndarray, length: float) -> np.ndarray:
 
 
 def dft_kernel(n: int, *, fs_hz: float, f_hz: float, t0_s: float = 0.0) -> np.ndarray:
-    """The DFT kernel ``exp(−j·2π·f·t_k)`` at the sample instants ``t_k = t0 + k/fs``."""
-    t = t0_s + np.arange(n) / fs_hz
-    return np.exp(-1j * 2.0 * np.pi * f_hz * t)
+    """The DFT kernel ``exp(−j·2π·f·t_k)`` at the sample instants ``t_k = t0 + k/fs``.
+
+    Long kernels are built as ``exp(−j·ω·(t0 + q·B/fs))·exp(−j·ω·r/fs)`` for ``k = q·B + r``
+    (``B ≈ √n``): two short complex exponentials and one product per sample instead of one
+    complex exponential per sample (equal to the direct form to round-off).
+    """
+    if n < 1024:
+        t = t0_s + np.arange(n) / fs_hz
+        return np.exp(-1j * 2.0 * np.pi * f_hz * t)
+    b = int(np.ceil(np.sqrt(n)))
+    n_q = -(-n // b)
+    w = -1j * 2.0 * np.pi * f_hz
+    coarse = np.exp(w * (t0_s + np.arange(n_q) * (b / fs_hz)))
+    fine = np.exp(w * (np.arange(b) / fs_hz))
+    return np.multiply.outer(coarse, fine).reshape(-1)[:n]
 
 
 def full_cycle_phasor(
@@ -127,8 +140,76 @@ def full_cycle_phasor(
         if kernel is not None
         else dft_kernel(x.shape[-1], fs_hz=fs_hz, f_hz=harmonic * f_hz, t0_s=t0_s)
     )
+    if np.isfinite(x).all():
+        return real_parts_phasor(x, k.real, k.imag, length)
     out = sliding_window_sum(x * k, length)
     out *= np.sqrt(2.0) / length
+    return out
+
+
+def real_parts_phasor(
+    x: np.ndarray, kernel_re: np.ndarray, kernel_im: np.ndarray, length: float
+) -> np.ndarray:
+    """:func:`full_cycle_phasor` of finite real samples, given the kernel's parts.
+
+    ``x·kernel`` of a real ``x`` has the parts ``x·Re k`` and ``x·Im k``: two real products
+    written into the parts of one complex array (the numbers of the complex product, for a
+    finite ``x``; no cast of ``x`` to complex).
+
+    Parameters
+    ----------
+    x : numpy.ndarray
+        Finite uniform samples (a 2-D array: one channel per row).
+    kernel_re, kernel_im : numpy.ndarray
+        Real and imaginary parts of the DFT kernel (:func:`dft_kernel`), length
+        ``x.shape[-1]`` (a 2-D kernel: one row per row of ``x``).
+    length : float
+        Samples per cycle of the kernel's fundamental (window length).
+
+    Returns
+    -------
+    numpy.ndarray
+        Complex RMS phasors, NaN before the first full cycle.
+    """
+    shape = np.broadcast_shapes(x.shape, np.shape(kernel_re))
+    z = np.empty(shape, dtype=np.complex128)
+    np.multiply(x, kernel_re, out=z.real)
+    np.multiply(x, kernel_im, out=z.imag)
+    out = _sliding_sum_of_temporary(z, length)
+    out *= np.sqrt(2.0) / length
+    return out
+
+
+def _sliding_sum_of_temporary(z: np.ndarray, length: float) -> np.ndarray:
+    """:func:`sliding_window_sum` of a complex temporary that may be overwritten.
+
+    The same numbers with one record-sized array fewer: the running sum goes to a buffer
+    without the leading zero (``c[k + 1]`` is ``s[k]``; ``c[0] = 0`` is subtracted as such)
+    and the fractional oldest sample is weighted in place in ``z``.
+    """
+    n = z.shape[-1]
+    if length < 1:
+        raise ValueError("window length must be at least one sample")
+    n_full = int(np.floor(length + 1e-9))
+    frac = float(length - n_full)
+    if frac < 1e-9:
+        frac = 0.0
+    first = n_full if frac > 0 else n_full - 1
+    out = np.empty(z.shape, dtype=np.complex128)
+    if n <= first:
+        out[...] = np.nan
+        return out
+    out[..., :first] = np.nan
+    s = np.cumsum(z, axis=-1)
+    lo = max(first, n_full)
+    # out[k] = c[k+1] − c[k+1−n_full] = s[k] − s[k−n_full] (k ≥ n_full); s[k] − 0 at k = n_full−1
+    np.subtract(s[..., lo:], s[..., lo - n_full : n - n_full], out=out[..., lo:])
+    if first < lo:
+        np.subtract(s[..., first], 0, out=out[..., first])
+    if frac > 0:
+        tail = z[..., first - n_full : n - n_full]
+        tail *= frac
+        out[..., first:] += tail
     return out
 
 

@@ -57,7 +57,7 @@ def superimposed(x: np.ndarray, *, length: float, n_cycles: int = 1) -> np.ndarr
     Parameters
     ----------
     x : numpy.ndarray
-        Uniform samples.
+        Uniform samples (a 2-D array: one channel per row, along the last axis).
     length : float
         Samples per cycle.
     n_cycles : int
@@ -66,20 +66,20 @@ def superimposed(x: np.ndarray, *, length: float, n_cycles: int = 1) -> np.ndarr
     Returns
     -------
     numpy.ndarray
-        Same length as ``x``, NaN where the delayed sample is not available.
+        Same shape as ``x``, NaN where the delayed sample is not available.
     """
     x = np.asarray(x, dtype=np.float64)
     delay = length * n_cycles
     m = int(np.floor(delay))
     frac = delay - m
     first = m + (1 if frac > 1e-9 else 0)
-    if x.shape[0] <= first:
-        return np.full(x.shape[0], np.nan)
-    n = x.shape[0]
-    out = np.empty(n)
-    out[:first] = np.nan
-    delayed = (1.0 - frac) * x[first - m : n - m]
+    n = x.shape[-1]
+    if n <= first:
+        return np.full(x.shape, np.nan)
+    out = np.empty(x.shape)
+    out[..., :first] = np.nan
+    delayed = (1.0 - frac) * x[..., first - m : n - m]
     if frac > 1e-9:
-        delayed += frac * x[first - m - 1 : n - m - 1]
-    out[first:] = x[first:] - delayed
+        delayed += frac * x[..., first - m - 1 : n - m - 1]
+    np.subtract(x[..., first:], delayed, out=out[..., first:])
     return out

@@ -9,12 +9,35 @@ sinusoidal.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
 
-from recordscan.signal.phasor import full_cycle_phasor, samples_per_cycle, sliding_rms
+from recordscan.signal.phasor import (
+    dft_kernel,
+    full_cycle_phasor,
+    real_parts_phasor,
+    samples_per_cycle,
+    sliding_rms,
+)
+
+
+def _gesv_gufunc() -> Callable[..., np.ndarray] | None:
+    """The gufunc behind ``np.linalg.solve`` (its wrapper's checks cost more than a 5×5
+    solve), when this numpy has it and it solves a known system; else None."""
+    try:
+        from numpy.linalg import _umath_linalg
+
+        fn = _umath_linalg.solve1
+        got = fn(np.array([[2.0, 1.0], [1.0, 3.0]]), np.array([3.0, 5.0]), signature="dd->d")
+    except Exception:  # pragma: no cover - another numpy layout: np.linalg.solve is used
+        return None
+    return fn if np.allclose(got, [0.8, 1.4], rtol=0, atol=1e-12) else None
+
+
+_SOLVE1 = _gesv_gufunc()
 
 __all__ = [
     "BeatFit",
@@ -164,17 +187,46 @@ def harmonic_ratio(
     x = np.asarray(x, dtype=np.float64)
     m = max(1, int(n_cycles))
     length = m * samples_per_cycle(fs_hz, f_hz)
+    orders = [h for h in harmonics if not h * f_hz >= 0.45 * fs_hz]
     acc = np.zeros(x.shape[0])
-    for h in harmonics:
-        if h * f_hz >= 0.45 * fs_hz:
-            continue
-        ph = full_cycle_phasor(x, fs_hz=fs_hz, f_hz=f_hz / m, t0_s=t0_s, harmonic=h * m)
-        acc = acc + np.abs(ph) ** 2
+    if orders and np.isfinite(x).all():
+        # all the harmonics' sliding DFTs in one 2-D pass; their kernels are powers of the
+        # fundamental's (one complex exponential instead of one per harmonic)
+        kern = _kernel_powers(dft_kernel(x.shape[0], fs_hz=fs_hz, f_hz=f_hz, t0_s=t0_s), orders)
+        ph = real_parts_phasor(x, kern.real, kern.imag, samples_per_cycle(fs_hz, f_hz / m))
+        mag2 = np.abs(ph)
+        mag2 *= mag2
+        acc = mag2[0]
+        for row in mag2[1:]:
+            acc += row
+    else:
+        for h in orders:
+            ph = full_cycle_phasor(x, fs_hz=fs_hz, f_hz=f_hz / m, t0_s=t0_s, harmonic=h * m)
+            acc = acc + np.abs(ph) ** 2
     rms = sliding_rms(x if rms_of is None else np.asarray(rms_of, float), length=length)
     with np.errstate(invalid="ignore", divide="ignore"):
         r = np.sqrt(acc) / rms
     r[~np.isfinite(r)] = np.nan
     return r
+
+
+def _kernel_powers(base: np.ndarray, orders: list[int]) -> np.ndarray:
+    """Rows ``base**h`` for the positive integers ``orders``, by repeated multiplication
+    (equal to the direct kernels of the harmonics to round-off)."""
+    out = np.empty((len(orders), base.shape[0]), dtype=np.complex128)
+    squares = base * base
+    cur, cur_h = base, 1
+    for j, h in sorted(enumerate(orders), key=lambda jh: jh[1]):
+        if h < 1:
+            raise ValueError("harmonic orders must be positive integers")
+        while h - cur_h >= 2:
+            cur = cur * squares
+            cur_h += 2
+        if h - cur_h == 1:
+            cur = cur * base
+            cur_h += 1
+        out[j] = cur
+    return out
 
 
 def envelope(x: np.ndarray) -> np.ndarray:
@@ -246,13 +298,72 @@ def _ls_fit(
         w = 2 * np.pi * f * t
         np.cos(w, out=a[3 + 2 * k])
         np.sin(w, out=a[4 + 2 * k])
+    with np.errstate(all="ignore"):
+        return _solve_rows(a, x)
+
+
+def _solve_rows(a: np.ndarray, x: np.ndarray) -> tuple[np.ndarray, float]:
+    """Least squares of ``x`` on the rows of ``a`` by the normal equations (``lstsq`` when
+    they are singular); (coefficients, RMS residual).
+
+    Call it under ``np.errstate(all="ignore")``: a singular system then gives non-finite
+    values from the solver (instead of an error) and takes the fallback.
+    """
     gram = a @ a.T
-    try:
-        coef = np.linalg.solve(gram, a @ x)
-    except np.linalg.LinAlgError:
-        coef = np.linalg.lstsq(a.T, x, rcond=None)[0]
+    rhs = a @ x
+    coef = None
+    if _SOLVE1 is not None:
+        # the gufunc behind np.linalg.solve without its per-call checks (same LAPACK gesv,
+        # same numbers)
+        coef = _SOLVE1(gram, rhs, signature="dd->d")
+        if not np.isfinite(coef).all():
+            coef = None
+    if coef is None:
+        try:
+            coef = np.linalg.solve(gram, rhs)
+        except np.linalg.LinAlgError:
+            coef = np.linalg.lstsq(a.T, x, rcond=None)[0]
     res = x - coef @ a
-    return coef, float(np.sqrt(np.mean(res * res)))
+    res *= res
+    # np.mean's own steps (pairwise sum, then one division), without its wrapper
+    return coef, float(np.sqrt(np.add.reduce(res) / res.shape[0]))
+
+
+class _FreeComponentFit:
+    """Residual RMS of the forced-plus-free fit as a function of the free frequency.
+
+    The forced rows are copied once into a work array whose last two rows are rewritten per
+    call (the same arithmetic as :func:`_ls_fit` with ``fixed``).
+    """
+
+    def __init__(self, x: np.ndarray, t: np.ndarray, fixed: np.ndarray) -> None:
+        self.x, self.t = x, t
+        self.a = np.empty((5, t.shape[0]))
+        self.a[:3] = fixed
+        self.w = np.empty(t.shape[0])
+
+    def fit(self, fr: float) -> tuple[np.ndarray, float]:
+        """Coefficients and RMS residual with the free component at ``fr``."""
+        np.multiply(2 * np.pi * fr, self.t, out=self.w)
+        np.cos(self.w, out=self.a[3])
+        np.sin(self.w, out=self.a[4])
+        return _solve_rows(self.a, self.x)
+
+    def __call__(self, fr: float) -> float:
+        """RMS residual with the free component at ``fr`` (the golden-section objective)."""
+        a, x, res = self.a, self.x, self.w
+        np.multiply(2 * np.pi * fr, self.t, out=res)
+        np.cos(res, out=a[3])
+        np.sin(res, out=a[4])
+        if _SOLVE1 is not None:
+            coef = _SOLVE1(a @ a.T, a @ x, signature="dd->d")
+            np.dot(coef, a, out=res)
+            np.subtract(x, res, out=res)
+            res *= res
+            r = math.sqrt(np.add.reduce(res) / res.shape[0])
+            if math.isfinite(r):
+                return r
+        return _solve_rows(a, x)[1]  # (a singular system: the checked path)
 
 
 def _basis(t: np.ndarray, freqs: list[float]) -> np.ndarray:
@@ -308,7 +419,7 @@ def fit_beat(
     if dur < 3.0 / f_hz or res1 < min_free_fraction * forced:
         # too short to resolve a beat, or the forced sinusoid leaves too little to be one
         return BeatFit(forced, 0.0, None, None, peak, res1)
-    a = np.stack([np.ones_like(t), np.cos(2 * np.pi * f_hz * t), np.sin(2 * np.pi * f_hz * t)], 1)
+    a = np.ascontiguousarray(fixed.T)  # columns 1, cos, sin: the same values, sample-major
     resid = x - a @ coef1
     n_fft = int(2 ** np.ceil(np.log2(max(8 * x.shape[0], 1024))))
     spec = np.abs(np.fft.rfft(resid * np.hanning(x.shape[0]), n_fft))
@@ -319,8 +430,10 @@ def fit_beat(
     f_guess = float(freqs[band][np.argmax(spec[band])])
     step = max(fs_hz / n_fft * 4, 1.0 / dur)
     lo, hi = max(0.3 * f_hz, f_guess - step), min(1.7 * f_hz, f_guess + step)
-    fn = golden_min(lambda fr: _ls_fit(x, t, [f_hz, fr], fixed=fixed)[1], lo, hi, tol=0.01)
-    coef2, res2 = _ls_fit(x, t, [f_hz, fn], fixed=fixed)
+    free_fit = _FreeComponentFit(x, t, fixed)
+    with np.errstate(all="ignore"):
+        fn = golden_min(free_fit, lo, hi, tol=0.01)
+        coef2, res2 = free_fit.fit(fn)
     forced2 = float(np.hypot(coef2[1], coef2[2]) / np.sqrt(2.0))
     free2 = float(np.hypot(coef2[3], coef2[4]) / np.sqrt(2.0))
     if free2 > min_free_fraction * max(forced2, 1e-300) and res2 < res1 / 1.5:
