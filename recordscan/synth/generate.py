@@ -234,7 +234,14 @@ def _arc_objects(scenario: Scenario) -> tuple[Any, Any, Any]:
         law = A.LinearElongation(v_m_per_s=a.elongation_speed_m_per_s)
     else:
         law = A.ConstantLength()
-    recovery = A.DielectricRecovery(rate_scale=a.recovery_rate_scale)
+    recovery = A.DielectricRecovery(
+        rate_scale=a.recovery_rate_scale,
+        saturation_time_s=(
+            a.recovery_saturation_s if a.recovery_saturation_s is not None else math.inf
+        ),
+        scatter_pu=a.restrike_scatter_pu,
+        scatter_seed=int(scenario.seed) if scenario.seed is not None else 0,
+    )
     return params, law, recovery
 
 
@@ -381,6 +388,9 @@ def _truth(
         ),
         "extinctions_s": (
             [float(t) - t0 for t in (getattr(tr, "extinctions_s", ()) or ())] if chain else []
+        ),
+        "reignition_s": (
+            [float(t) - t0 for t in (getattr(tr, "reignition_s", ()) or ())] if chain else []
         ),
         "extinction_s": extinction,
         "secondary_arc_current_rms_a": (

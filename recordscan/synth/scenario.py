@@ -188,6 +188,10 @@ class ArcSettings:
     elongation_speed_m_per_s: float = 3.0
     restrike: bool = True
     recovery_rate_scale: float = 1.0
+    #: duration of the hot channel's linear recovery [s]; None: no saturation
+    recovery_saturation_s: float | None = None
+    #: relative scatter of the restrike withstand, redrawn every half cycle (0: none)
+    restrike_scatter_pu: float = 0.0
 
 
 @dataclass(frozen=True)
@@ -625,6 +629,8 @@ def parse_scenario(
         elongation_speed_m_per_s=at.num("elongation_speed_m_per_s", 3.0, lo=0),
         restrike=at.boolean("restrike", True),
         recovery_rate_scale=at.num("recovery_rate_scale", 1.0, lo=0, lo_open=True),
+        recovery_saturation_s=at.num("recovery_saturation_s", None, lo=0, lo_open=True),
+        restrike_scatter_pu=at.num("restrike_scatter_pu", 0.0, lo=0, hi=0.3) or 0.0,
     )
     at.finish()
 

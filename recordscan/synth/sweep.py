@@ -111,6 +111,14 @@ class SweepRanges:
     elongation_speed_m_per_s: tuple[float, float] = (5.0, 25.0)
     #: log-uniform; lower values recover the gap slower and give more restrikes
     recovery_rate_scale: tuple[float, float] = (0.25, 2.0)
+    #: share of events whose hot channel stops its linear recovery (a slowly recovering
+    #: residual column); drawn, with the two ranges below, from a side generator so that
+    #: every other draw is the same as without them
+    p_recovery_saturation: float = 0.7
+    #: log-uniform duration of the linear recovery of those channels [s]
+    recovery_saturation_s: tuple[float, float] = (0.004, 0.03)
+    #: relative scatter of the restrike withstand (redrawn every half cycle)
+    restrike_scatter_pu: tuple[float, float] = (0.05, 0.15)
     #: single-pole dead time (never below the deionisation minimum of the voltage class);
     #: the shorter ones often meet a still-burning arc
     dead_time_s: tuple[float, float] = (0.45, 1.6)
@@ -147,6 +155,10 @@ class SweepRanges:
         bad = [v for v in self.voltage_kv if v not in LINE_CLASSES]
         if bad:
             raise ModelError(f"no typical line data for voltage class(es) {bad} kV")
+
+
+#: key of the side generator (with the scenario seed) for the restrike-withstand draws
+_SIDE_STREAM = 0x5EC
 
 
 def _u(rng: np.random.Generator, pair: tuple[float, float]) -> float:
@@ -275,11 +287,20 @@ def draw_scenario(
         )
         for _ in range(2)
     ]
+    seed = int(rng.integers(0, 2**31 - 1))
+    side = np.random.default_rng([seed, _SIDE_STREAM])
+    sat_lo, sat_hi = r.recovery_saturation_s
+    sat = float(math.exp(side.uniform(math.log(sat_lo), math.log(sat_hi))))
+    arc = replace(
+        arc,
+        recovery_saturation_s=round(sat, 5) if side.random() < r.p_recovery_saturation else None,
+        restrike_scatter_pu=round(_u(side, r.restrike_scatter_pu), 3),
+    )
     return Scenario(
         name=name,
         line=LineSettings(inline=line),
         description="randomly drawn scenario (recordscan.synth.sweep)",
-        seed=int(rng.integers(0, 2**31 - 1)),
+        seed=seed,
         local=src[0],
         remote=src[1],
         load=LoadSettings(angle_deg=round(_u(rng, r.load_angle_deg), 2)),
