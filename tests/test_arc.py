@@ -566,6 +566,11 @@ def test_saturated_recovery_lets_a_beating_recovery_voltage_restrike_late() -> N
     root = brentq(lambda x: abs(v_of(x)) - slope * t_sat, 0.055, 0.06)
     assert t[idx - 1] <= root <= t[idx]
     assert t[idx] * f_hz > 2.5  # more than two and a half cycles of recovery first
+    # after a plateau the recovery resumes along the same slope (our model)
+    paused = DielectricRecovery(saturation_time_s=t_sat, plateau_s=0.1)
+    tt = np.array([0.0, 0.02, t_sat, 0.1, t_sat + 0.1, t_sat + 0.1 + 0.05])
+    want = slope * np.array([0.0, 0.02, t_sat, t_sat, t_sat, t_sat + 0.05])
+    assert paused.strength_v(tt, **kw) == pytest.approx(want, rel=1e-12)
 
 
 def test_dielectric_recovery_rejects_bad_saturation_and_scatter() -> None:
@@ -573,6 +578,8 @@ def test_dielectric_recovery_rejects_bad_saturation_and_scatter() -> None:
         DielectricRecovery(saturation_time_s=0.0)
     with pytest.raises(ModelError, match="saturation_time_s"):
         DielectricRecovery(saturation_time_s=float("nan"))
+    with pytest.raises(ModelError, match="plateau_s"):
+        DielectricRecovery(plateau_s=-0.1)
     with pytest.raises(ModelError, match="scatter_pu"):
         DielectricRecovery(scatter_pu=0.5)
     with pytest.raises(ModelError, match="scatter_seed"):

@@ -331,3 +331,17 @@ def test_compiled_restrike_race_matches_the_readable_model() -> None:
     assert t[gap][idx] == pytest.approx(t_r, abs=0.5e-3)
     # the withstand had stopped rising (saturated) well before: a late restrike
     assert t_r - t_x > 0.004
+
+
+def test_restrike_bound_holds_the_path_after_it() -> None:
+    # A corpus bound (issue 4 asks for 0–4 restrikes per event), not physics: with
+    # max_restrikes = 0 the path holds after the extinction that a restrike followed before.
+    rec = DielectricRecovery(rate_scale=0.3, saturation_time_s=0.004, plateau_s=0.1)
+    kw = {"trip_l": {"A": 0.1}, "trip_r": {"A": 0.105}, "t_end_s": 1.2}
+    free = simulate_event(event(fault=arc_fault(recovery=rec), **kw)).truth
+    held = simulate_event(event(fault=arc_fault(recovery=rec, max_restrikes=0), **kw)).truth
+    assert len(free.restrike_s) >= 1
+    assert held.restrike_s == ()
+    assert held.extinction_s == pytest.approx(free.extinctions_s[0], abs=1e-12)
+    with pytest.raises(ModelError, match="max_restrikes"):
+        simulate_event(event(fault=arc_fault(max_restrikes=-1), **kw))

@@ -108,6 +108,8 @@ def test_line_file_resolved_relative_to_scenario(tmp_path: Path) -> None:
         ("[line]\nfile='l.toml'\nlength_km = 3\n", "line.length_km"),
         ("[line]\nfile='l.toml'\n[reactors.local]\nmode = 'given'\n", "reactors.local.mode"),
         ("[line]\nfile='l.toml'\n[arc]\nrestrike_scatter_pu = 0.5\n", "arc.restrike_scatter_pu"),
+        ("[line]\nfile='l.toml'\n[arc]\nmax_restrikes = -1\n", "arc.max_restrikes"),
+        ("[line]\nfile='l.toml'\n[arc]\nrecovery_plateau_s = -1\n", "arc.recovery_plateau_s"),
         ("[line]\nfile='l.toml'\n[arc]\nrecovery_saturation_s = 0\n", "arc.recovery_saturation_s"),
     ],
 )

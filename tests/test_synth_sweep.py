@@ -80,7 +80,7 @@ def test_restrike_withstand_draws_leave_every_other_draw_unchanged() -> None:
         seed=2026,
         ranges=SweepRanges(p_recovery_saturation=0.0, restrike_scatter_pu=(0.0, 0.0)),
     )
-    plain = {"recovery_saturation_s": None, "restrike_scatter_pu": 0.0}
+    plain = {"recovery_saturation_s": None, "recovery_plateau_s": None, "restrike_scatter_pu": 0.0}
     for a, b in zip(on, off, strict=True):
         assert b.arc.recovery_saturation_s is None and b.arc.restrike_scatter_pu == 0.0
         assert dataclasses.replace(a, arc=dataclasses.replace(a.arc, **plain)) == b
@@ -92,6 +92,11 @@ def test_restrike_withstand_draws_leave_every_other_draw_unchanged() -> None:
     scatter = [s.arc.restrike_scatter_pu for s in draw_scenarios(50, seed=3)]
     lo, hi = r.restrike_scatter_pu
     assert all(lo <= x <= hi for x in scatter)
+    # issue 4 asks for 0–4 restrikes per event: the corpus bound, an integer in range files
+    assert {s.arc.max_restrikes for s in on} == {4}
+    assert ranges_from_dict({"max_restrikes": 3}).max_restrikes == 3
+    with pytest.raises(FormatError, match=r"sweep\.max_restrikes"):
+        ranges_from_dict({"max_restrikes": 2.5})
 
 
 def test_tuned_neutral_reactors_follow_the_closed_form() -> None:

@@ -239,6 +239,7 @@ def _arc_objects(scenario: Scenario) -> tuple[Any, Any, Any]:
         saturation_time_s=(
             a.recovery_saturation_s if a.recovery_saturation_s is not None else math.inf
         ),
+        plateau_s=a.recovery_plateau_s if a.recovery_plateau_s is not None else math.inf,
         scatter_pu=a.restrike_scatter_pu,
         scatter_seed=int(scenario.seed) if scenario.seed is not None else 0,
     )
@@ -285,6 +286,7 @@ def build_event_spec(
             "elongation": law,
             "permanent": scenario.fault.permanent,
             "restrike_enabled": scenario.arc.restrike,
+            "max_restrikes": scenario.arc.max_restrikes,
         }
         if len(scenario.fault.phases) > 1:
             if "phases" not in fs_fields:

@@ -215,6 +215,9 @@ class FaultSpec:
         Further phases with their own arc to ground (multi-phase faults); may be empty.
     recovery : DielectricRecovery
         Dielectric recovery of the path after an extinction.
+    max_restrikes : int or None
+        At most this many restrikes; after them the path holds whatever the recovery
+        voltage (a corpus bound, not physics; re-ignitions are not counted). None: no bound.
     """
 
     phase: str
@@ -228,6 +231,7 @@ class FaultSpec:
     restrike_enabled: bool = True
     phases: tuple[str, ...] = ()
     recovery: DielectricRecovery = field(default_factory=DielectricRecovery)
+    max_restrikes: int | None = None
 
     @property
     def all_phases(self) -> tuple[str, ...]:
@@ -379,6 +383,10 @@ def _validate(spec: EventSpec) -> None:
             _fail(f"fault location_m {f.location_m} lies outside the line (0…length_m)")
         if not f.r_fault_ohm > 0:
             _fail(f"fault r_fault_ohm must be > 0, got {f.r_fault_ohm}")
+        if f.max_restrikes is not None and not (
+            isinstance(f.max_restrikes, int) and f.max_restrikes >= 0
+        ):
+            _fail(f"fault max_restrikes must be an integer >= 0 or None, got {f.max_restrikes!r}")
 
 
 @dataclass(frozen=True)
@@ -534,8 +542,10 @@ def _arc_arrays(spec: EventSpec, layout: _Layout) -> tuple[np.ndarray, np.ndarra
         conf[k, _k.C_CEIL] = f.recovery.ceiling_for(f.secondary.l0_m)
         conf[k, _k.C_RATE] = f.recovery.rate_scale
         conf[k, _k.C_TSAT] = f.recovery.saturation_time_s
+        conf[k, _k.C_TPLAT] = f.recovery.plateau_s
         conf[k, _k.C_SCATTER] = f.recovery.scatter_pu
         conf[k, _k.C_SEED] = float(f.recovery.scatter_seed % 2147483646)
+        conf[k, _k.C_MAXRS] = -1.0 if f.max_restrikes is None else float(f.max_restrikes)
         par[k, 0] = f.primary.as_tuple()
         par[k, 1] = f.secondary.as_tuple()
     return conf, par, phases

@@ -52,13 +52,13 @@ _strength = _jit(_arc.dielectric_strength_scalar)
 S_G, S_BURN, S_STARTED, S_L, S_TEL, S_TEXT, S_TBS, S_S2, S_CNT = 0, 1, 2, 3, 4, 5, 6, 7, 8
 S_TE, S_IRMS, S_LEXT, S_SEC, S_REEST, S_MODE = 9, 10, 11, 12, 13, 14
 S_IPREV, S_TZERO = 15, 16
-S_TSEC, S_RNG, S_SCAT, S_VSIGN = 17, 18, 19, 20
-N_ARC_STATE = 21
+S_TSEC, S_RNG, S_SCAT, S_VSIGN, S_NRS = 17, 18, 19, 20, 21
+N_ARC_STATE = 22
 # arc configuration columns
 C_NODE, C_PHASE, C_RF, C_PERM, C_RESTRIKE, C_T0, C_CODE, C_P1, C_P2 = 0, 1, 2, 3, 4, 5, 6, 7, 8
 C_CEIL, C_RATE = 9, 10
-C_TSAT, C_SCATTER, C_SEED = 11, 12, 13
-N_ARC_CONF = 14
+C_TSAT, C_SCATTER, C_SEED, C_MAXRS, C_TPLAT = 11, 12, 13, 14, 15
+N_ARC_CONF = 16
 
 # Park–Miller "minimal standard" generator (Park & Miller, Comm. ACM 31(10), 1988):
 # x ← 16807·x mod (2^31 − 1); every product stays below 2^53, so float64 arithmetic is exact.
@@ -467,20 +467,30 @@ def run_kernel(
                     if arc_state[k, S_VSIGN] != 0.0 and sgn != arc_state[k, S_VSIGN]:
                         _new_scatter(arc_state, arc_conf, k)
                     arc_state[k, S_VSIGN] = sgn
+                    # recovery time: the plateau after t_sat does not count
+                    t_rec = t - arc_state[k, S_TEXT]
+                    t_sat = arc_conf[k, C_TSAT]
+                    t_rec = min(t_rec, t_sat) + max(t_rec - t_sat - arc_conf[k, C_TPLAT], 0.0)
                     withstand = arc_state[k, S_SCAT] * _strength(
-                        min(t - arc_state[k, S_TEXT], arc_conf[k, C_TSAT]),
+                        t_rec,
                         arc_state[k, S_TE],
                         arc_state[k, S_IRMS],
                         arc_state[k, S_LEXT],
                         arc_conf[k, C_CEIL],
                         arc_conf[k, C_RATE],
                     )
-                    if abs(vf) > withstand:
+                    reign = (t - arc_state[k, S_TEXT]) * omega < 0.5 * math.pi
+                    capped = (
+                        not reign
+                        and arc_conf[k, C_MAXRS] >= 0.0
+                        and arc_state[k, S_NRS] >= arc_conf[k, C_MAXRS]
+                    )
+                    if abs(vf) > withstand and not capped:
                         arc_state[k, S_BURN] = 1.0
                         i_pk = max(math.sqrt(2.0) * arc_state[k, S_IRMS], 1.0)
                         arc_state[k, S_TZERO] = t
                         arc_state[k, S_IPREV] = 0.0
-                        if (t - arc_state[k, S_TEXT]) * omega < 0.5 * math.pi:
+                        if reign:
                             # re-ignition: current resumes less than a quarter cycle after
                             # the current zero (IEC 60050-441-17-45); the arc goes on in its
                             # still-hot, elongated channel
@@ -498,6 +508,7 @@ def run_kernel(
                             arc_state[k, S_TBS] = t
                             arc_state[k, S_S2] = 0.0
                             arc_state[k, S_CNT] = 0.0
+                            arc_state[k, S_NRS] += 1.0
                             _log(log, log_n, 4, t, k, vf)
         # breaker poles: interrupt at a current zero after contact separation; close on time
         changed = False
