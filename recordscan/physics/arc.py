@@ -28,8 +28,10 @@ Extinction (Kizilcay/Prikler type): the arc is declared extinct when its conduct
 length ``g·l`` (the reciprocal of the resistance per unit length ``r = R/l = 1/(g·l)``; the
 literature quotes the threshold in µS/m) is below ``g_min`` while ``r`` rises faster than
 ``dr/dt``. Dielectric recovery after an extinction follows the reignition characteristic of
-Johns et al. (1994), capped by the cold-gap breakdown of :mod:`recordscan.physics.gap`; a
-recovery voltage that outruns it restrikes the arc (race model, Slepian).
+Johns et al. (1994), capped by the cold-gap breakdown of :mod:`recordscan.physics.gap`,
+optionally pausing for a plateau and scattered per breakdown trial (our choices, see
+:class:`DielectricRecovery`); a recovery voltage that outruns it restrikes the arc (race
+model, Slepian).
 """
 
 from __future__ import annotations

@@ -12,6 +12,12 @@ The arc model is :mod:`recordscan.physics.arc`, whose scalar functions are compi
 with :func:`numba.njit`. The same Python source runs uncompiled as ``run_kernel.py_func``
 (used by the benchmark to measure what compilation buys).
 
+After an extinction the recovery voltage at the fault node races the path's withstand
+(:func:`recordscan.physics.arc.dielectric_strength_scalar`, evaluated at the recovery time
+less any plateau and multiplied by a scatter factor redrawn every half cycle). A
+breakdown less than a quarter cycle after the current zero is a re-ignition (the arc goes
+on in its channel), a later one a restrike (a new arc over l0), after IEC 60050-441.
+
 Event log rows are ``(kind, t_s, index, extra)`` with kinds listed in :data:`LOG_KINDS`.
 """
 
