@@ -536,6 +536,59 @@ def test_bad_inputs_raise_model_error() -> None:
     assert p.as_tuple()[0] == 1000.0 and type(p.as_tuple()[4]) is float
 
 
+def test_saturated_recovery_lets_a_beating_recovery_voltage_restrike_late() -> None:
+    # A recovery voltage that beats (shunt-compensated line: forced plus free component,
+    # envelope E·sin(π·f_b·t), derived) never overtakes a linear withstand s·t when
+    # s > E·π·f_b, because sin x ≤ x (derived). A channel whose recovery stops after t_sat
+    # (withstand W_sat = s·t_sat, our model) restrikes at the first instant the envelope-
+    # modulated voltage exceeds W_sat, several cycles after the extinction; the instant is
+    # the root found independently by scipy.optimize.brentq.
+    f_hz, f_beat_hz, e_v = 50.0, 5.0, 100e3
+    kw = {"t_burn_s": 0.05, "i_s_rms_a": 30.0, "l_m": 3.0, "l0_m": 3.0}
+    # Johns et al. (1994, from memory) slope: [5 + 1620·0.05/32.15] kV/(cm·s) over 3 m
+    slope = (5.0 + 1620.0 * 0.05 / 32.15) * 1e5 * 3.0
+    assert slope == pytest.approx(2.2558e6, rel=1e-4)
+    assert slope > e_v * math.pi * f_beat_hz
+
+    def v_of(x: float) -> float:
+        return e_v * math.sin(math.pi * f_beat_hz * x) * math.cos(2 * math.pi * f_hz * x)
+
+    t = np.arange(0, 15001) * 10e-6
+    v = np.array([v_of(x) for x in t])
+    assert find_restrike(t, v, **kw) is None
+    t_sat = 0.033
+    rec = DielectricRecovery(saturation_time_s=t_sat)
+    w = rec.strength_v(t, **kw)
+    assert w[-1] == pytest.approx(slope * t_sat, rel=1e-12)
+    assert w[t <= t_sat] == pytest.approx(slope * t[t <= t_sat], rel=1e-12)
+    idx = find_restrike(t, v, recovery=rec, **kw)
+    assert idx is not None
+    root = brentq(lambda x: abs(v_of(x)) - slope * t_sat, 0.055, 0.06)
+    assert t[idx - 1] <= root <= t[idx]
+    assert t[idx] * f_hz > 2.5  # more than two and a half cycles of recovery first
+    # after a plateau the recovery resumes along the same slope (our model)
+    paused = DielectricRecovery(saturation_time_s=t_sat, plateau_s=0.1)
+    tt = np.array([0.0, 0.02, t_sat, 0.1, t_sat + 0.1, t_sat + 0.1 + 0.05])
+    want = slope * np.array([0.0, 0.02, t_sat, t_sat, t_sat, t_sat + 0.05])
+    assert paused.strength_v(tt, **kw) == pytest.approx(want, rel=1e-12)
+
+
+def test_dielectric_recovery_rejects_bad_saturation_and_scatter() -> None:
+    with pytest.raises(ModelError, match="saturation_time_s"):
+        DielectricRecovery(saturation_time_s=0.0)
+    with pytest.raises(ModelError, match="saturation_time_s"):
+        DielectricRecovery(saturation_time_s=float("nan"))
+    with pytest.raises(ModelError, match="plateau_s"):
+        DielectricRecovery(plateau_s=-0.1)
+    with pytest.raises(ModelError, match="scatter_pu"):
+        DielectricRecovery(scatter_pu=0.5)
+    with pytest.raises(ModelError, match="scatter_seed"):
+        DielectricRecovery(scatter_seed=-1)
+    # the defaults are Johns's line without saturation or scatter
+    rec = DielectricRecovery()
+    assert rec.saturation_time_s == math.inf and rec.scatter_pu == 0.0
+
+
 # --------------------------------------------------------------------------- benchmark
 
 

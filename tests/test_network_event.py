@@ -7,7 +7,12 @@ Reference behaviour:
   protection trips all three poles after its operating time (common practice);
 - race model of restrike (Slepian; dielectric recovery after Johns, Aggarwal & Song, IEE
   Proc. C 141(2), 1994 — coefficients from memory in recordscan.physics.arc): a slower
-  dielectric recovery gives restrikes, a disabled restrike gives none.
+  dielectric recovery gives restrikes, a disabled restrike gives none;
+- IEC 60050-441 (441-17-45 and 441-17-46, from memory): current resuming less than a quarter
+  cycle after a current zero is a re-ignition, a quarter cycle or more a restrike;
+- Park & Miller, "Random number generators: good ones are hard to find", Comm. ACM 31(10),
+  1988: the minimal standard generator reaches 1043618065 after 10 000 steps from seed 1
+  (check value, from memory); Box & Muller (1958) normal deviates.
 The scenario data are invented (a 400 kV, 50 Hz, 200 km line).
 """
 
@@ -20,7 +25,7 @@ import numpy as np
 import pytest
 
 from recordscan.errors import ModelError
-from recordscan.physics.arc import DielectricRecovery
+from recordscan.physics.arc import DielectricRecovery, find_restrike
 from recordscan.physics.network import (
     BreakerSpec,
     EventSpec,
@@ -30,6 +35,7 @@ from recordscan.physics.network import (
     SourceSpec,
     simulate_event,
 )
+from recordscan.physics.network import kernel as _k
 
 F_HZ = 50.0
 LINE = LineModelData.from_sequence(
@@ -247,3 +253,110 @@ def test_truth_extinction_is_the_end_of_conduction() -> None:
     g = np.where(t < 0.1 + 2.0 / f, 1e-3, 0.0)  # conducted two more cycles without a zero
     assert _conduction_end(0.1, t, g, f) == pytest.approx(0.1 + 2.0 / f, abs=2 * 20e-6)
     assert _conduction_end(0.1, t, np.full_like(t, 1e-3), f) == 0.1  # never went out
+
+
+def test_park_miller_generator_meets_its_published_check_value() -> None:
+    state = np.zeros((1, _k.N_ARC_STATE))
+    state[0, _k.S_RNG] = 1.0
+    for _ in range(10_000):
+        u = _k._uniform(state, 0)
+        assert 0.0 < u < 1.0
+    assert state[0, _k.S_RNG] == 1043618065.0
+
+
+def test_breakdown_scatter_is_a_clipped_normal_factor() -> None:
+    from scipy.stats import truncnorm
+
+    sigma = 0.1
+    state = np.zeros((1, _k.N_ARC_STATE))
+    state[0, _k.S_RNG] = 12345.0
+    conf = np.zeros((1, _k.N_ARC_CONF))
+    conf[0, _k.C_SCATTER] = sigma
+    draws = np.empty(20_000)
+    for j in range(draws.size):
+        _k._new_scatter(state, conf, 0)
+        draws[j] = state[0, _k.S_SCAT]
+    assert np.all(np.abs(draws - 1.0) <= 3.0 * sigma + 1e-12)
+    assert abs(draws.mean() - 1.0) < 4.0 * sigma / math.sqrt(draws.size)
+    # independent reference: scipy's normal truncated at ±3 standard deviations
+    assert draws.std() == pytest.approx(sigma * truncnorm(-3.0, 3.0).std(), rel=0.03)
+    conf[0, _k.C_SCATTER] = 0.0
+    _k._new_scatter(state, conf, 0)
+    assert state[0, _k.S_SCAT] == 1.0
+
+
+def test_reignitions_and_restrikes_follow_the_quarter_cycle_rule() -> None:
+    rec = DielectricRecovery(rate_scale=0.3, saturation_time_s=0.004)
+    spec = event(fault=arc_fault(recovery=rec), trip_l={"A": 0.1}, trip_r={"A": 0.105},
+                 t_end_s=1.2)  # fmt: skip
+    res = simulate_event(spec)
+    tr = res.truth
+    quarter_s = 0.25 / F_HZ
+    assert tr.reignition_s and tr.restrike_s
+    burning = res.arc_g_siemens > 0.0
+    l0 = spec.fault.secondary.l0_m
+    for t_ri in tr.reignition_s:
+        n = round(t_ri / spec.dt_s)
+        last_burn = np.flatnonzero(burning[:n])[-1]
+        assert (n - last_burn) * spec.dt_s < quarter_s
+        # the arc goes on in its elongated channel: no jump back to l0
+        assert res.arc_l_m[n + 1] == pytest.approx(res.arc_l_m[n - 1], rel=1e-3)
+        assert res.arc_l_m[n + 1] > 1.5 * l0
+        # its current zero is not listed as an extinction
+        assert not any(t_ri - quarter_s < t_x < t_ri for t_x in tr.extinctions_s)
+    for t_r in tr.restrike_s:
+        t_x = max(e for e in tr.extinctions_s if e < t_r)
+        assert t_r - t_x >= quarter_s
+        n = round(t_r / spec.dt_s)
+        assert res.arc_l_m[n + 1] == pytest.approx(l0)
+
+
+def test_compiled_restrike_race_matches_the_readable_model() -> None:
+    # The kernel's restrike instant (no scatter) is the first sample at which the simulated
+    # voltage across the path exceeds the withstand computed by arc.find_restrike with the
+    # same burning time (from the secondary-arc start, Johns's T_e), current and length.
+    rec = DielectricRecovery(rate_scale=0.3, saturation_time_s=0.004)
+    spec = event(fault=arc_fault(recovery=rec), trip_l={"A": 0.1}, trip_r={"A": 0.105},
+                 t_end_s=1.2)  # fmt: skip
+    res = simulate_event(spec)
+    tr = res.truth
+    t_r = tr.restrike_s[0]
+    t_x = max(e for e in tr.extinctions_s if e < t_r)
+    t = res.t_s
+    burning = res.arc_g_siemens > 0.0
+    sel = (t >= tr.secondary_arc_start_s) & (t < t_x) & burning
+    i_s = float(np.sqrt(np.mean(res.arc_i_a[sel] ** 2)))
+    gap = (t > t_x) & (t <= t_r + 0.01)
+    l_ext = float(res.arc_l_m[np.flatnonzero(gap)[0]])
+    idx = find_restrike(
+        t[gap] - t_x, res.arc_v_v[gap], t_burn_s=t_x - tr.secondary_arc_start_s,
+        i_s_rms_a=i_s, l_m=l_ext, l0_m=spec.fault.secondary.l0_m, recovery=rec,
+    )  # fmt: skip
+    assert idx is not None
+    # the restrike falls near a crest of the recovery voltage, where the crossing instant is
+    # ill-conditioned: compare the withstand at the kernel's instant (the rms current of the
+    # sampled waveform differs from the kernel's running sum in the 5th digit)
+    n = round(t_r / spec.dt_s)
+    w = rec.strength_v(
+        np.array([t_r - t_x]), t_burn_s=t_x - tr.secondary_arc_start_s, i_s_rms_a=i_s,
+        l_m=l_ext, l0_m=spec.fault.secondary.l0_m,
+    )[0]  # fmt: skip
+    assert abs(res.arc_v_v[n]) >= w * (1.0 - 1e-3)
+    assert np.all(np.abs(res.arc_v_v[gap][: idx - 5]) <= w * (1.0 + 1e-3))
+    assert t[gap][idx] == pytest.approx(t_r, abs=0.5e-3)
+    # the withstand had stopped rising (saturated) well before: a late restrike
+    assert t_r - t_x > 0.004
+
+
+def test_restrike_bound_holds_the_path_after_it() -> None:
+    # A corpus bound (issue 4 asks for 0–4 restrikes per event), not physics: with
+    # max_restrikes = 0 the path holds after the extinction that a restrike followed before.
+    rec = DielectricRecovery(rate_scale=0.3, saturation_time_s=0.004, plateau_s=0.1)
+    kw = {"trip_l": {"A": 0.1}, "trip_r": {"A": 0.105}, "t_end_s": 1.2}
+    free = simulate_event(event(fault=arc_fault(recovery=rec), **kw)).truth
+    held = simulate_event(event(fault=arc_fault(recovery=rec, max_restrikes=0), **kw)).truth
+    assert len(free.restrike_s) >= 1
+    assert held.restrike_s == ()
+    assert held.extinction_s == pytest.approx(free.extinctions_s[0], abs=1e-12)
+    with pytest.raises(ModelError, match="max_restrikes"):
+        simulate_event(event(fault=arc_fault(max_restrikes=-1), **kw))

@@ -107,6 +107,10 @@ def test_line_file_resolved_relative_to_scenario(tmp_path: Path) -> None:
         ("[line]\nvoltage_kv = 500\n", "line.frequency_hz"),
         ("[line]\nfile='l.toml'\nlength_km = 3\n", "line.length_km"),
         ("[line]\nfile='l.toml'\n[reactors.local]\nmode = 'given'\n", "reactors.local.mode"),
+        ("[line]\nfile='l.toml'\n[arc]\nrestrike_scatter_pu = 0.5\n", "arc.restrike_scatter_pu"),
+        ("[line]\nfile='l.toml'\n[arc]\nmax_restrikes = -1\n", "arc.max_restrikes"),
+        ("[line]\nfile='l.toml'\n[arc]\nrecovery_plateau_s = -1\n", "arc.recovery_plateau_s"),
+        ("[line]\nfile='l.toml'\n[arc]\nrecovery_saturation_s = 0\n", "arc.recovery_saturation_s"),
     ],
 )
 def test_bad_scenario_names_file_and_key(tmp_path: Path, text: str, key: str) -> None:

@@ -69,6 +69,36 @@ def test_corpus_covers_the_asked_ranges(corpus: tuple) -> None:
         assert s.breaker.dead_time_s >= max((10.5 + k / 34.5) / 60, 0.175 + 0.0005 * k) - 1e-9
 
 
+def test_restrike_withstand_draws_leave_every_other_draw_unchanged() -> None:
+    # The saturation and scatter of the restrike withstand come from a side generator keyed
+    # on each scenario's seed: switching them off gives the same corpus otherwise.
+    import dataclasses
+
+    on = draw_scenarios(40, seed=2026)
+    off = draw_scenarios(
+        40,
+        seed=2026,
+        ranges=SweepRanges(p_recovery_saturation=0.0, restrike_scatter_pu=(0.0, 0.0)),
+    )
+    plain = {"recovery_saturation_s": None, "recovery_plateau_s": None, "restrike_scatter_pu": 0.0}
+    for a, b in zip(on, off, strict=True):
+        assert b.arc.recovery_saturation_s is None and b.arc.restrike_scatter_pu == 0.0
+        assert dataclasses.replace(a, arc=dataclasses.replace(a.arc, **plain)) == b
+    sat = [s.arc.recovery_saturation_s for s in draw_scenarios(300, seed=20261202)]
+    drawn = [x for x in sat if x is not None]
+    r = SweepRanges()
+    assert 0.55 < len(drawn) / len(sat) < 0.85  # p_recovery_saturation = 0.7
+    assert r.recovery_saturation_s[0] <= min(drawn) and max(drawn) <= r.recovery_saturation_s[1]
+    scatter = [s.arc.restrike_scatter_pu for s in draw_scenarios(50, seed=3)]
+    lo, hi = r.restrike_scatter_pu
+    assert all(lo <= x <= hi for x in scatter)
+    # issue 4 asks for 0–4 restrikes per event: the corpus bound, an integer in range files
+    assert {s.arc.max_restrikes for s in on} == {4}
+    assert ranges_from_dict({"max_restrikes": 3}).max_restrikes == 3
+    with pytest.raises(FormatError, match=r"sweep\.max_restrikes"):
+        ranges_from_dict({"max_restrikes": 2.5})
+
+
 def test_tuned_neutral_reactors_follow_the_closed_form() -> None:
     r = SweepRanges(p_compensated=1.0, p_neutral_reactor=1.0, neutral_detuning=(1.0, 1.0))
     for s in draw_scenarios(40, seed=3, ranges=r):

@@ -28,8 +28,10 @@ Extinction (Kizilcay/Prikler type): the arc is declared extinct when its conduct
 length ``g·l`` (the reciprocal of the resistance per unit length ``r = R/l = 1/(g·l)``; the
 literature quotes the threshold in µS/m) is below ``g_min`` while ``r`` rises faster than
 ``dr/dt``. Dielectric recovery after an extinction follows the reignition characteristic of
-Johns et al. (1994), capped by the cold-gap breakdown of :mod:`recordscan.physics.gap`; a
-recovery voltage that outruns it restrikes the arc (race model, Slepian).
+Johns et al. (1994), capped by the cold-gap breakdown of :mod:`recordscan.physics.gap`,
+optionally pausing for a plateau and scattered per breakdown trial (our choices, see
+:class:`DielectricRecovery`); a recovery voltage that outruns it restrikes the arc (race
+model, Slepian).
 """
 
 from __future__ import annotations
@@ -420,19 +422,66 @@ class DielectricRecovery:
         Switching-impulse gap factor K of the path (rod–plane 1.0).
     altitude_m
         Site altitude [m].
+    saturation_time_s
+        Duration of the hot channel's first linear (Johns) recovery [s]; after it the
+        withstand stays at the value reached, ``V_r(t_sat)``, for :attr:`plateau_s` — a
+        slowly recovering residual column — then rises again along Johns's slope (our
+        choice, see docs/arc-model.md). ``math.inf`` (default): Johns's line up to the cold
+        gap.
+    plateau_s
+        How long the withstand stays at ``V_r(t_sat)`` [s] (``math.inf``: for good).
+    scatter_pu
+        Relative standard deviation of the breakdown voltage of the recovering path; the
+        withstand is multiplied by a Gaussian factor ``1 + scatter_pu·z`` redrawn at every
+        crest of the recovery voltage (statistical breakdown of self-restoring air
+        insulation, IEC 60071-2; 0 = deterministic).
+    scatter_seed
+        Seed of the network simulator's generator of those factors.
     """
 
     rate_scale: float = 1.0
     gap_m: float | None = None
     gap_factor: float = 1.0
     altitude_m: float = 0.0
+    saturation_time_s: float = math.inf
+    plateau_s: float = math.inf
+    scatter_pu: float = 0.0
+    scatter_seed: int = 0
 
     def __post_init__(self) -> None:
         _check(
             math.isfinite(self.rate_scale) and self.rate_scale > 0.0,
             f"rate_scale must be > 0, got {self.rate_scale}",
         )
+        _check(
+            not math.isnan(self.saturation_time_s) and self.saturation_time_s > 0.0,
+            f"saturation_time_s must be > 0 (math.inf: no saturation), got "
+            f"{self.saturation_time_s}",
+        )
+        _check(
+            not math.isnan(self.plateau_s) and self.plateau_s >= 0.0,
+            f"plateau_s must be >= 0 (math.inf: the withstand stays), got {self.plateau_s}",
+        )
+        _check(
+            math.isfinite(self.scatter_pu) and 0.0 <= self.scatter_pu <= 0.3,
+            f"scatter_pu must lie in [0, 0.3], got {self.scatter_pu}",
+        )
+        _check(
+            isinstance(self.scatter_seed, numbers.Integral) and self.scatter_seed >= 0,
+            f"scatter_seed must be an integer >= 0, got {self.scatter_seed!r}",
+        )
         self.ceiling_for(1.0)  # validates gap_m, gap_factor and altitude_m through gap.py
+
+    def recovery_time_s(self, t_since_extinction_s: ArrayLike) -> np.ndarray:
+        """Time over which the channel has recovered: ``t`` less the plateau (vectorised).
+
+        ``min(t, t_sat) + max(t − t_sat − plateau, 0)``; Johns's characteristic is evaluated
+        at this time.
+        """
+        t = np.asarray(t_since_extinction_s, dtype=float)
+        t_sat = self.saturation_time_s
+        after = t - t_sat - self.plateau_s if math.isfinite(self.plateau_s) else -np.inf
+        return np.minimum(t, t_sat) + np.maximum(after, 0.0)
 
     def ceiling_for(self, l0_m: float) -> float:
         """Cold-gap ceiling [V crest] for an arc path whose clearance is ``gap_m`` or ``l0_m``."""
@@ -448,11 +497,13 @@ class DielectricRecovery:
         l_m: ArrayLike,
         l0_m: float,
     ) -> np.ndarray:
-        """Withstand of the path [V] after an extinction (vectorised).
+        """Withstand of the path [V] after an extinction (vectorised, 50 % value).
 
-        Same arithmetic as :func:`dielectric_strength_scalar` with the ceiling for ``l0_m``.
+        Same arithmetic as :func:`dielectric_strength_scalar` with the ceiling for ``l0_m``,
+        evaluated at :meth:`recovery_time_s`; the scatter is not applied (it is a property
+        of each breakdown trial, see the kernel).
         """
-        t = np.asarray(t_since_extinction_s, dtype=float)
+        t = self.recovery_time_s(np.asarray(t_since_extinction_s, dtype=float))
         slope = 5.0 + 1620.0 * t_burn_s / (2.15 + abs(i_s_rms_a))
         hot = self.rate_scale * slope * _KV_PER_CM_S_TO_V_PER_M_S * np.maximum(t, 0.0)
         hot = hot * np.asarray(l_m, dtype=float)

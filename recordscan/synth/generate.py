@@ -234,7 +234,15 @@ def _arc_objects(scenario: Scenario) -> tuple[Any, Any, Any]:
         law = A.LinearElongation(v_m_per_s=a.elongation_speed_m_per_s)
     else:
         law = A.ConstantLength()
-    recovery = A.DielectricRecovery(rate_scale=a.recovery_rate_scale)
+    recovery = A.DielectricRecovery(
+        rate_scale=a.recovery_rate_scale,
+        saturation_time_s=(
+            a.recovery_saturation_s if a.recovery_saturation_s is not None else math.inf
+        ),
+        plateau_s=a.recovery_plateau_s if a.recovery_plateau_s is not None else math.inf,
+        scatter_pu=a.restrike_scatter_pu,
+        scatter_seed=int(scenario.seed) if scenario.seed is not None else 0,
+    )
     return params, law, recovery
 
 
@@ -278,6 +286,7 @@ def build_event_spec(
             "elongation": law,
             "permanent": scenario.fault.permanent,
             "restrike_enabled": scenario.arc.restrike,
+            "max_restrikes": scenario.arc.max_restrikes,
         }
         if len(scenario.fault.phases) > 1:
             if "phases" not in fs_fields:
@@ -382,6 +391,9 @@ def _truth(
         "extinctions_s": (
             [float(t) - t0 for t in (getattr(tr, "extinctions_s", ()) or ())] if chain else []
         ),
+        "reignition_s": (
+            [float(t) - t0 for t in (getattr(tr, "reignition_s", ()) or ())] if chain else []
+        ),
         "extinction_s": extinction,
         "secondary_arc_current_rms_a": (
             getattr(tr, "secondary_arc_current_rms_a", None) if chain else None
@@ -473,7 +485,9 @@ def simulate(scenario: Scenario | str | Path, *, keep_raw: bool = False) -> Simu
     result = simulate_event(spec)
     params = spec.fault.secondary if spec.fault is not None else None
     truth = _truth(scenario, line, result, timing, params)
-    truth["scenario_echo"] = scenario_to_dict(scenario)
+    # a line file relative to the scenario file, as written there (no machine's own path)
+    src = scenario.source_path
+    truth["scenario_echo"] = scenario_to_dict(scenario, base_dir=Path(src).parent if src else None)
     _check_truth(truth, scenario.source_path or scenario.name)
     records = {
         end: record_end(scenario, line, result, timing, end, rng) for end in scenario.output.ends

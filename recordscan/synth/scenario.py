@@ -188,6 +188,14 @@ class ArcSettings:
     elongation_speed_m_per_s: float = 3.0
     restrike: bool = True
     recovery_rate_scale: float = 1.0
+    #: duration of the hot channel's first linear recovery [s]; None: no saturation
+    recovery_saturation_s: float | None = None
+    #: how long the withstand then stays [s]; None: for good
+    recovery_plateau_s: float | None = None
+    #: relative scatter of the restrike withstand, redrawn every half cycle (0: none)
+    restrike_scatter_pu: float = 0.0
+    #: at most this many restrikes (None: no bound; a corpus bound, not physics)
+    max_restrikes: int | None = None
 
 
 @dataclass(frozen=True)
@@ -428,6 +436,16 @@ class _Table:
             raise self.fail(extra[0], "unknown key (see docs/scenario.md)")
 
 
+def _count(t: _Table, key: str) -> int | None:
+    """An optional non-negative integer."""
+    v = t.get(key, None)
+    if v is None:
+        return None
+    if isinstance(v, bool) or not isinstance(v, int) or v < 0:
+        raise t.fail(key, f"expected an integer >= 0, got {v!r}")
+    return int(v)
+
+
 def _phases(t: _Table, kind: str) -> tuple[str, ...]:
     default = {"single_phase": ("A",), "two_phase_ground": ("A", "B")}.get(kind, ())
     if kind == "three_phase":
@@ -625,6 +643,10 @@ def parse_scenario(
         elongation_speed_m_per_s=at.num("elongation_speed_m_per_s", 3.0, lo=0),
         restrike=at.boolean("restrike", True),
         recovery_rate_scale=at.num("recovery_rate_scale", 1.0, lo=0, lo_open=True),
+        recovery_saturation_s=at.num("recovery_saturation_s", None, lo=0, lo_open=True),
+        recovery_plateau_s=at.num("recovery_plateau_s", None, lo=0),
+        restrike_scatter_pu=at.num("restrike_scatter_pu", 0.0, lo=0, hi=0.3) or 0.0,
+        max_restrikes=_count(at, "max_restrikes"),
     )
     at.finish()
 

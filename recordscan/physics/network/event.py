@@ -215,6 +215,9 @@ class FaultSpec:
         Further phases with their own arc to ground (multi-phase faults); may be empty.
     recovery : DielectricRecovery
         Dielectric recovery of the path after an extinction.
+    max_restrikes : int or None
+        At most this many restrikes; after them the path holds whatever the recovery
+        voltage (a corpus bound, not physics; re-ignitions are not counted). None: no bound.
     """
 
     phase: str
@@ -228,6 +231,7 @@ class FaultSpec:
     restrike_enabled: bool = True
     phases: tuple[str, ...] = ()
     recovery: DielectricRecovery = field(default_factory=DielectricRecovery)
+    max_restrikes: int | None = None
 
     @property
     def all_phases(self) -> tuple[str, ...]:
@@ -287,7 +291,11 @@ class EventTruth:
 
     ``pole_open_s`` maps ``(end, phase)`` (end 0 local, 1 remote) to the first current-zero
     interruption of that pole; ``pole_operations`` lists every operation as
-    ``(kind, t_s, end, phase)`` with kind "open" or "close".
+    ``(kind, t_s, end, phase)`` with kind "open" or "close". ``restrike_s`` lists the
+    re-breakdowns of the path after a quarter cycle or more of zero current (IEC 60050-441
+    "restrike"), each following one of ``extinctions_s``; ``reignition_s`` those within
+    less than a quarter cycle of a current zero (IEC 60050-441 "re-ignition"), after which
+    the arc goes on in its channel — their current zeros are not listed as extinctions.
     """
 
     inception_s: float | None
@@ -305,6 +313,7 @@ class EventTruth:
     secondary_arc_current_rms_a: float | None
     recovery_voltage_rms_v: float | None
     primary_fault_current_rms_a: float | None
+    reignition_s: tuple[float, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -374,6 +383,10 @@ def _validate(spec: EventSpec) -> None:
             _fail(f"fault location_m {f.location_m} lies outside the line (0…length_m)")
         if not f.r_fault_ohm > 0:
             _fail(f"fault r_fault_ohm must be > 0, got {f.r_fault_ohm}")
+        if f.max_restrikes is not None and not (
+            isinstance(f.max_restrikes, int) and f.max_restrikes >= 0
+        ):
+            _fail(f"fault max_restrikes must be an integer >= 0 or None, got {f.max_restrikes!r}")
 
 
 @dataclass(frozen=True)
@@ -528,6 +541,11 @@ def _arc_arrays(spec: EventSpec, layout: _Layout) -> tuple[np.ndarray, np.ndarra
         conf[k, _k.C_P2] = float(p2)
         conf[k, _k.C_CEIL] = f.recovery.ceiling_for(f.secondary.l0_m)
         conf[k, _k.C_RATE] = f.recovery.rate_scale
+        conf[k, _k.C_TSAT] = f.recovery.saturation_time_s
+        conf[k, _k.C_TPLAT] = f.recovery.plateau_s
+        conf[k, _k.C_SCATTER] = f.recovery.scatter_pu
+        conf[k, _k.C_SEED] = float(f.recovery.scatter_seed % 2147483646)
+        conf[k, _k.C_MAXRS] = -1.0 if f.max_restrikes is None else float(f.max_restrikes)
         par[k, 0] = f.primary.as_tuple()
         par[k, 1] = f.secondary.as_tuple()
     return conf, par, phases
@@ -692,7 +710,15 @@ def _truth(spec: EventSpec, rows: np.ndarray, t_s: np.ndarray, arc_i: np.ndarray
     first_reclose = min((t for t in reclose.values() if t is not None), default=None)
     limit = first_reclose if first_reclose is not None else float(t_s[-1]) + 1.0
     restrikes = tuple(t for t in times("restrike") if t < limit)
-    exts = tuple(_conduction_end(t, t_s, arc_g, spec.frequency_hz) for t in times("extinction"))
+    reignitions = tuple(t for t in times("reignition") if t < limit)
+    # an extinction followed by a re-ignition (current back within a quarter cycle) was no
+    # interruption of the arc: it is not listed
+    undone = {max(e for e in times("extinction") if e <= t) for t in reignitions}
+    exts = tuple(
+        _conduction_end(t, t_s, arc_g, spec.frequency_hz)
+        for t in times("extinction")
+        if t not in undone
+    )
     exts = tuple(t for t in exts if t < limit)
     final_ext = None
     if exts and (not restrikes or exts[-1] > restrikes[-1]):
@@ -727,6 +753,7 @@ def _truth(spec: EventSpec, rows: np.ndarray, t_s: np.ndarray, arc_i: np.ndarray
         pole_operations=tuple(ops),
         secondary_arc_start_s=sec_start,
         restrike_s=restrikes,
+        reignition_s=reignitions,
         extinction_s=final_ext,
         extinctions_s=exts,
         reclose_s=reclose,

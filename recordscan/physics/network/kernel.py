@@ -12,6 +12,12 @@ The arc model is :mod:`recordscan.physics.arc`, whose scalar functions are compi
 with :func:`numba.njit`. The same Python source runs uncompiled as ``run_kernel.py_func``
 (used by the benchmark to measure what compilation buys).
 
+After an extinction the recovery voltage at the fault node races the path's withstand
+(:func:`recordscan.physics.arc.dielectric_strength_scalar`, evaluated at the recovery time
+less any plateau and multiplied by a scatter factor redrawn every half cycle). A
+breakdown less than a quarter cycle after the current zero is a re-ignition (the arc goes
+on in its channel), a later one a restrike (a new arc over l0), after IEC 60050-441.
+
 Event log rows are ``(kind, t_s, index, extra)`` with kinds listed in :data:`LOG_KINDS`.
 """
 
@@ -38,6 +44,7 @@ LOG_KINDS: dict[int, str] = {
     6: "three_pole_trip",
     7: "inception",
     8: "reestablished",
+    9: "reignition",
 }
 
 _jit = numba.njit(cache=True, nogil=True)
@@ -51,11 +58,18 @@ _strength = _jit(_arc.dielectric_strength_scalar)
 S_G, S_BURN, S_STARTED, S_L, S_TEL, S_TEXT, S_TBS, S_S2, S_CNT = 0, 1, 2, 3, 4, 5, 6, 7, 8
 S_TE, S_IRMS, S_LEXT, S_SEC, S_REEST, S_MODE = 9, 10, 11, 12, 13, 14
 S_IPREV, S_TZERO = 15, 16
-N_ARC_STATE = 17
+S_TSEC, S_RNG, S_SCAT, S_VSIGN, S_NRS = 17, 18, 19, 20, 21
+N_ARC_STATE = 22
 # arc configuration columns
 C_NODE, C_PHASE, C_RF, C_PERM, C_RESTRIKE, C_T0, C_CODE, C_P1, C_P2 = 0, 1, 2, 3, 4, 5, 6, 7, 8
 C_CEIL, C_RATE = 9, 10
-N_ARC_CONF = 11
+C_TSAT, C_SCATTER, C_SEED, C_MAXRS, C_TPLAT = 11, 12, 13, 14, 15
+N_ARC_CONF = 16
+
+# Park–Miller "minimal standard" generator (Park & Miller, Comm. ACM 31(10), 1988):
+# x ← 16807·x mod (2^31 − 1); every product stays below 2^53, so float64 arithmetic is exact.
+_PM_A = 16807.0
+_PM_M = 2147483647.0
 
 
 @_jit
@@ -67,6 +81,28 @@ def _log(log: np.ndarray, log_n: np.ndarray, kind: int, t: float, idx: int, extr
         log[k, 2] = idx
         log[k, 3] = extra
         log_n[0] = k + 1
+
+
+@_jit
+def _uniform(state: np.ndarray, k: int) -> float:
+    """Next uniform number in (0, 1) of arc ``k``'s Park–Miller generator."""
+    x = (_PM_A * state[k, S_RNG]) % _PM_M
+    state[k, S_RNG] = x
+    return x / _PM_M
+
+
+@_jit
+def _new_scatter(state: np.ndarray, conf: np.ndarray, k: int) -> None:
+    """Draw the breakdown factor ``1 + σ·z`` (z standard normal, Box–Muller; |z| ≤ 3)."""
+    sigma = conf[k, C_SCATTER]
+    if sigma <= 0.0:
+        state[k, S_SCAT] = 1.0
+        return
+    u1 = _uniform(state, k)
+    u2 = _uniform(state, k)
+    z = math.sqrt(-2.0 * math.log(u1)) * math.cos(2.0 * math.pi * u2)
+    z = min(max(z, -3.0), 3.0)
+    state[k, S_SCAT] = 1.0 + sigma * z
 
 
 @_jit
@@ -181,6 +217,9 @@ def run_kernel(
     for r in range(n_arc):
         for c in range(n_arc):
             z_th[r, c] = yinv[arc_nodes[r], arc_nodes[c]]
+    for k in range(n_arc):
+        if arc_state[k, S_RNG] == 0.0:
+            arc_state[k, S_RNG] = 1.0 + (arc_conf[k, C_SEED] + 7919.0 * k) % (_PM_M - 1.0)
 
     for n in range(n_start, n_total):
         t = n * dt
@@ -255,6 +294,7 @@ def run_kernel(
                     arc_state[k, S_SEC] = 1.0
                     arc_state[k, S_TEL] = t
                     arc_state[k, S_TBS] = t
+                    arc_state[k, S_TSEC] = t
                     _log(log, log_n, 5, t, k, 0.0)
             g_b[k] = 0.0
             if arc_state[k, S_BURN] == 1.0:
@@ -398,12 +438,16 @@ def run_kernel(
                     )
                 if extinct:
                     # the race between recovery voltage and withstand starts at the last
-                    # current zero (Johns et al. 1994 time their characteristic from it)
+                    # current zero (Johns et al. 1994 time their characteristic from it);
+                    # their T_e is the extinction instant counted from the start of the
+                    # secondary arc, restrikes included
                     t_x = max(arc_state[k, S_TZERO], arc_state[k, S_TBS])
                     arc_state[k, S_BURN] = 0.0
                     arc_state[k, S_G] = 0.0
                     arc_state[k, S_TEXT] = t_x
-                    arc_state[k, S_TE] = t_x - arc_state[k, S_TBS]
+                    arc_state[k, S_TE] = t_x - arc_state[k, S_TSEC]
+                    arc_state[k, S_VSIGN] = 0.0
+                    _new_scatter(arc_state, arc_conf, k)
                     cnt = max(arc_state[k, S_CNT], 1.0)
                     arc_state[k, S_IRMS] = math.sqrt(arc_state[k, S_S2] / cnt)
                     arc_state[k, S_LEXT] = arc_state[k, S_L]
@@ -423,25 +467,55 @@ def run_kernel(
                 out_arc_g[k, n] = 0.0
                 out_arc_v[k, n] = vf
                 if arc_state[k, S_STARTED] == 1.0 and arc_conf[k, C_RESTRIKE] == 1.0:
-                    withstand = _strength(
-                        t - arc_state[k, S_TEXT],
+                    # one breakdown trial per half cycle of the recovery voltage: the
+                    # scatter factor is redrawn at each zero crossing
+                    sgn = 1.0 if vf > 0.0 else -1.0
+                    if arc_state[k, S_VSIGN] != 0.0 and sgn != arc_state[k, S_VSIGN]:
+                        _new_scatter(arc_state, arc_conf, k)
+                    arc_state[k, S_VSIGN] = sgn
+                    # recovery time: the plateau after t_sat does not count
+                    t_rec = t - arc_state[k, S_TEXT]
+                    t_sat = arc_conf[k, C_TSAT]
+                    t_rec = min(t_rec, t_sat) + max(t_rec - t_sat - arc_conf[k, C_TPLAT], 0.0)
+                    withstand = arc_state[k, S_SCAT] * _strength(
+                        t_rec,
                         arc_state[k, S_TE],
                         arc_state[k, S_IRMS],
                         arc_state[k, S_LEXT],
                         arc_conf[k, C_CEIL],
                         arc_conf[k, C_RATE],
                     )
-                    if abs(vf) > withstand:
+                    reign = (t - arc_state[k, S_TEXT]) * omega < 0.5 * math.pi
+                    capped = (
+                        not reign
+                        and arc_conf[k, C_MAXRS] >= 0.0
+                        and arc_state[k, S_NRS] >= arc_conf[k, C_MAXRS]
+                    )
+                    if abs(vf) > withstand and not capped:
                         arc_state[k, S_BURN] = 1.0
-                        l0 = arc_par[k, pset, 4]
-                        arc_state[k, S_L] = l0
                         i_pk = max(math.sqrt(2.0) * arc_state[k, S_IRMS], 1.0)
-                        arc_state[k, S_G] = i_pk / (arc_par[k, pset, 0] * l0)
-                        arc_state[k, S_TEL] = t
-                        arc_state[k, S_TBS] = t
                         arc_state[k, S_TZERO] = t
                         arc_state[k, S_IPREV] = 0.0
-                        _log(log, log_n, 4, t, k, vf)
+                        if reign:
+                            # re-ignition: current resumes less than a quarter cycle after
+                            # the current zero (IEC 60050-441-17-45); the arc goes on in its
+                            # still-hot, elongated channel
+                            l_re = arc_state[k, S_LEXT]
+                            arc_state[k, S_L] = l_re
+                            arc_state[k, S_G] = i_pk / (arc_par[k, pset, 0] * l_re)
+                            _log(log, log_n, 9, t, k, vf)
+                        else:
+                            # restrike: a quarter cycle or more of zero current (IEC
+                            # 60050-441-17-46); the new arc takes the shortest path
+                            l0 = arc_par[k, pset, 4]
+                            arc_state[k, S_L] = l0
+                            arc_state[k, S_G] = i_pk / (arc_par[k, pset, 0] * l0)
+                            arc_state[k, S_TEL] = t
+                            arc_state[k, S_TBS] = t
+                            arc_state[k, S_S2] = 0.0
+                            arc_state[k, S_CNT] = 0.0
+                            arc_state[k, S_NRS] += 1.0
+                            _log(log, log_n, 4, t, k, vf)
         # breaker poles: interrupt at a current zero after contact separation; close on time
         changed = False
         for pole in range(6):
@@ -484,6 +558,7 @@ def run_kernel(
                         arc_state[k, S_SEC] = 1.0
                         arc_state[k, S_TEL] = t_open
                         arc_state[k, S_TBS] = t_open
+                        arc_state[k, S_TSEC] = t_open
                         arc_state[k, S_S2] = 0.0
                         arc_state[k, S_CNT] = 0.0
                         _log(log, log_n, 5, t_open, k, 0.0)
