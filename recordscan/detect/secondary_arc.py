@@ -37,6 +37,7 @@ from recordscan.core.record import Record
 from recordscan.core.roles import ARC_CURRENT, PHASES, V_LINE
 from recordscan.detect._base import Quantities, finite_median, finite_values, where
 from recordscan.detect.faint_loops import faint_loops_in_record
+from recordscan.detect.recovery_fit import refine_full_rate, refine_on_recovery_fit
 from recordscan.detect.ringdown import faint_signature_end, ringdown_extinction
 from recordscan.errors import DetectionError
 from recordscan.signal.charfunc import robust_scale, step_score
@@ -354,99 +355,6 @@ def _floor_reached(h: np.ndarray, floor: float, contrast: float) -> int | None:
     return int(np.clip(round((floor - icpt) / slope), i20, h.shape[0] - 1))
 
 
-def _refine_full_rate(
-    full: Record,
-    role: str,
-    *,
-    t_kc: float,
-    t_lo: float,
-    t_hi: float,
-    f_hz: float,
-    arc_amp: float,
-    window_cycles: int,
-    t_coarse: float,
-) -> tuple[float, float] | None:
-    """Repeat the recovery-fit refinement on the full-rate samples near ``t_kc``."""
-    ch = full.analog_by_role(role)
-    if ch is None:
-        return None
-    t = full.t_s
-    k_lo = int(np.searchsorted(t, t_lo))
-    k_hi = int(np.searchsorted(t, t_hi, side="right"))
-    k_c = int(np.searchsorted(t, t_kc))
-    if not k_lo < k_c < k_hi:
-        return None
-    seg = next((s for s in full.segments if s.start_idx <= k_c < s.stop_idx), None)
-    if seg is None or seg.rate_hz <= 0:
-        return None
-    lo, hi = max(k_lo, seg.start_idx), min(k_hi, seg.stop_idx)
-    n = seg.rate_hz / f_hz
-    v = finite_values(ch.values)
-    ref = _refine(v, t, kc=k_c, n=n, f_hz=f_hz, lo=lo, hi=hi, arc_amp=arc_amp)
-    if ref is None or not k_c - window_cycles * n - 2 <= ref[0] <= k_c:
-        return None
-    dt = 1.0 / seg.rate_hz
-    t_fine = float(t[ref[0]]) - 0.5 * dt
-    if abs(t_fine - t_coarse) > 0.25 / f_hz:
-        return None  # the full-rate fit disagrees with the block-averaged one: keep that
-    return t_fine, max(dt, 0.05 / f_hz)
-
-
-def _refine(
-    v: np.ndarray,
-    t: np.ndarray,
-    *,
-    kc: int,
-    n: float,
-    f_hz: float,
-    lo: int,
-    hi: int,
-    arc_amp: float,
-) -> tuple[int, float] | None:
-    """Backward residual scan: first sample after the last departure from the recovery fit."""
-    w = 2 * np.pi * f_hz
-
-    def basis(x: np.ndarray) -> np.ndarray:
-        # columns cos, sin, 1, y, y² written in place (the values np.stack would gather)
-        out = np.empty((x.shape[0], 5))
-        wx = w * x
-        np.cos(wx, out=out[:, 0])
-        np.sin(wx, out=out[:, 1])
-        out[:, 2] = 1.0
-        np.multiply(x, f_hz, out=out[:, 3])
-        np.multiply(out[:, 3], out[:, 3], out=out[:, 4])
-        return out
-
-    def scan(k_fit: int, k_top: int) -> tuple[int, float] | None:
-        fit_b = min(k_fit + int(np.ceil(1.5 * n)), hi)
-        if fit_b - k_fit < max(8, int(n)):
-            return None
-        tt = t[k_fit:fit_b] - t[k_fit]
-        b_fit = basis(tt)
-        coef, *_ = np.linalg.lstsq(b_fit, v[k_fit:fit_b], rcond=None)
-        res_fit = v[k_fit:fit_b] - b_fit @ coef
-        s_lo = max(lo, k_top - int(np.ceil(2.0 * n)))
-        ts = t[s_lo : k_top + 1] - t[k_fit]
-        res = np.abs(v[s_lo : k_top + 1] - basis(ts) @ coef)
-        thr = max(5.0 * float(np.sqrt(np.mean(res_fit**2))), 0.3 * arc_amp)
-        big = np.flatnonzero(res > thr)
-        if big.size == 0:
-            return None
-        return s_lo + int(big[-1]) + 1, thr
-
-    first = scan(kc, kc)
-    if first is None:
-        return None
-    k1, thr1 = first
-    # fit again from just after the first estimate: a shorter extrapolation
-    k_fit = k1 + max(1, int(0.1 * n))
-    if k_fit < kc:
-        second = scan(k_fit, k_fit)
-        if second is not None and second[0] <= k_fit:
-            return second
-    return k1, thr1
-
-
 def detect_extinction(
     record: Record,
     *,
@@ -638,7 +546,7 @@ def detect_extinction(
             if k_floor is not None:
                 k_f = kc + k_floor
     k_est = max(k_f - win + 1, lo)
-    ref = _refine(v, t, kc=k_f, n=n, f_hz=q.f_hz, lo=lo, hi=b, arc_amp=arc_amp)
+    ref = refine_on_recovery_fit(v, t, kc=k_f, n=n, f_hz=q.f_hz, lo=lo, hi=b, arc_amp=arc_amp)
     if ref is not None and not k_est - 0.3 * n <= ref[0] <= k_f:
         ref = None  # the fit's departure is not where the harmonic window says
     step = None if ref is not None else _last_level_step(tr, k_f - a, n, floor_idx=lo - a)
@@ -688,7 +596,7 @@ def detect_extinction(
             method = "onset of the free oscillation (beat) of the open phase"
     t_ext = float(t[k_ext]) - 0.5 * dt
     if refine_record is not None and ref is not None:
-        fine = _refine_full_rate(
+        fine = refine_full_rate(
             refine_record,
             role,
             t_kc=float(t[kc]),
