@@ -11,7 +11,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from recordscan.detect.faint_loops import faint_loops_end
+from recordscan.detect.faint_loops import faint_loops_end, recovered_tail
 
 F = 50.0
 FS = 4000.0
@@ -57,3 +57,30 @@ def test_a_transient_larger_than_the_arc_is_not_a_loop() -> None:
 def test_too_little_recovery_to_fit() -> None:
     t, v = _wave(0.30)
     assert faint_loops_end(v, t, f_hz=F, t_ext_s=0.28, t_end_s=0.32) is None
+
+
+def _square_then_recovery(t_ext_s: float | None, seed: int = 5):
+    rng = np.random.default_rng(seed)
+    t = np.arange(0.0, 0.5, 1.0 / FS)
+    w = 2 * np.pi * F
+    v = 30e3 * np.sin(w * t + 0.4) + 5e3
+    if t_ext_s is not None:
+        arc = 9e3 * np.sign(np.sin(w * t))
+        v = np.where(t < t_ext_s, arc, v)
+    else:
+        v = 9e3 * np.sign(np.sin(w * t))
+    sigma = 30e3 / np.sqrt(2) * 10 ** (-50 / 20)
+    return t, v + rng.normal(0.0, sigma, t.size), sigma
+
+
+def test_recovered_tail_places_an_extinction_near_the_end() -> None:
+    # the arc goes out 1.5 cycles before the reclose at 0.5 s
+    t, v, sigma = _square_then_recovery(0.5 - 1.5 / F)
+    got = recovered_tail(v, t, f_hz=F, t_end_s=0.5, noise_v=sigma)
+    assert got is not None
+    assert got.t_s == pytest.approx(0.5 - 1.5 / F, abs=0.1 / F)
+
+
+def test_recovered_tail_refuses_an_arc_burning_to_the_end() -> None:
+    t, v, sigma = _square_then_recovery(None)
+    assert recovered_tail(v, t, f_hz=F, t_end_s=0.5, noise_v=sigma) is None

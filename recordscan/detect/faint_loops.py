@@ -172,3 +172,73 @@ def faint_loops_in_record(
         free_hz=free_hz,
         max_departure_v=max_departure_v,
     )
+
+
+def recovered_tail(
+    v: np.ndarray,
+    t: np.ndarray,
+    *,
+    f_hz: float,
+    t_end_s: float,
+    noise_v: float,
+    clean_factor: float = 1.4,
+    k_sigma: float = 8.0,
+    min_departure_frac: float = 0.01,
+    search_cycles: float = 3.0,
+) -> FaintLoops | None:
+    """An extinction less than three cycles before the end of the observation, or None.
+
+    The last cycle before ``t_end_s`` is fitted with a power-frequency sinusoid plus a
+    straight line (the recovery voltage and its slowly varying offset). When that fit is as
+    clean as the channel's noise (residual RMS at most ``clean_factor`` × ``noise_v``), the
+    phase carries the recovery voltage at the end, and the extinction is the end of the last
+    departure from the fit, extrapolated back over up to ``search_cycles``, larger than
+    ``k_sigma`` × the noise (and ``min_departure_frac`` of the recovery amplitude).
+
+    Parameters
+    ----------
+    v, t : numpy.ndarray
+        Open-phase voltage [V] and its uniform time axis [s] (one segment).
+    f_hz : float
+        Power frequency.
+    t_end_s : float
+        End of the observation (reclose or end of record).
+    noise_v : float
+        Noise σ of the channel [V].
+    clean_factor, k_sigma, min_departure_frac, search_cycles : float
+        See above.
+
+    Returns
+    -------
+    FaintLoops or None
+        The instant (with the bound and the largest departure), or None when the last cycle
+        is not a clean recovery or nothing departs from it.
+    """
+    t = np.asarray(t, dtype=np.float64)
+    if t.size < 8 or noise_v <= 0:
+        return None
+    dt = float(t[1] - t[0])
+    n = 1.0 / (f_hz * dt)
+    kb = min(int(np.searchsorted(t, t_end_s)), t.size)
+    a = kb - int(np.ceil(n))
+    lo = a - int(np.ceil(search_cycles * n))
+    if lo < 0 or a - lo < 4:
+        return None
+    w = 2.0 * np.pi * f_hz
+
+    def basis(x: np.ndarray) -> np.ndarray:
+        return np.stack([np.cos(w * x), np.sin(w * x), np.ones_like(x), x * f_hz], axis=1)
+
+    x = np.asarray(v[a:kb], dtype=np.float64)
+    m = basis(t[a:kb] - t[a])
+    coef, *_ = np.linalg.lstsq(m, x, rcond=None)
+    sigma = float(np.sqrt(np.mean((x - m @ coef) ** 2)))
+    if sigma > clean_factor * noise_v:
+        return None
+    thr = max(k_sigma * max(sigma, noise_v), min_departure_frac * float(np.hypot(coef[0], coef[1])))
+    res = np.abs(np.asarray(v[lo:a], dtype=np.float64) - basis(t[lo:a] - t[a]) @ coef)
+    big = np.flatnonzero(res > thr)
+    if big.size == 0:
+        return None
+    k = lo + int(big[-1]) + 1
+    return FaintLoops(float(t[k]) - 0.5 * dt, thr, float(np.max(res)))

@@ -28,7 +28,6 @@ until the end of the observation (reclose or record end); otherwise the result i
 from __future__ import annotations
 
 import dataclasses
-from dataclasses import dataclass
 
 import numpy as np
 
@@ -36,7 +35,8 @@ from recordscan.core.events import Event, Evidence
 from recordscan.core.record import Record
 from recordscan.core.roles import ARC_CURRENT, PHASES, V_LINE
 from recordscan.detect._base import Quantities, finite_median, finite_values, where
-from recordscan.detect.faint_loops import faint_loops_in_record
+from recordscan.detect.arc_results import ArcTrace, ExtinctionResult
+from recordscan.detect.faint_loops import faint_loops_in_record, recovered_tail
 from recordscan.detect.recovery_fit import refine_full_rate, refine_on_recovery_fit
 from recordscan.detect.ringdown import faint_signature_end, ringdown_extinction
 from recordscan.errors import DetectionError
@@ -51,74 +51,6 @@ __all__ = [
     "detect_extinction",
     "with_burning_after",
 ]
-
-
-@dataclass(frozen=True)
-class ArcTrace:
-    """The open phase's arc state between the arc start and the end of the observation.
-
-    Attributes
-    ----------
-    phase : str
-        Open phase.
-    start_idx, stop_idx : int
-        Sample range evaluated (``stop_idx`` exclusive).
-    hratio : numpy.ndarray
-        One-cycle harmonic ratio per sample of the range.
-    level_pu : numpy.ndarray
-        Open-phase fundamental relative to the healthy-phase voltage.
-    burning : numpy.ndarray
-        Arc-burning state per sample (short blips removed).
-    arc_amplitude_v : float or None
-        Typical peak of the arc voltage (None if it never burned).
-    n_cycle : float
-        Samples per cycle.
-    """
-
-    phase: str
-    start_idx: int
-    stop_idx: int
-    hratio: np.ndarray
-    level_pu: np.ndarray
-    burning: np.ndarray
-    arc_amplitude_v: float | None
-    n_cycle: float
-
-
-@dataclass(frozen=True)
-class ExtinctionResult:
-    """Final extinction of the secondary arc.
-
-    Attributes
-    ----------
-    extinction : Event or None
-        ``kind="extinction"``; None when censored.
-    censored : bool
-        True when the arc (or the fault) outlived the observation.
-    observed_until_s : float
-        End of the observation (reclose or record end).
-    arc_start_s : float
-        Start of the secondary arc.
-    burning_intervals : tuple of (float, float)
-        Stretches in which the arc burned (s).
-    arc_voltage_peak_v : float or None
-        Typical arc-voltage peak.
-    warnings : tuple of str
-        Degraded evidence.
-    """
-
-    extinction: Event | None
-    censored: bool
-    observed_until_s: float
-    arc_start_s: float
-    burning_intervals: tuple[tuple[float, float], ...] = ()
-    arc_voltage_peak_v: float | None = None
-    warnings: tuple[str, ...] = ()
-
-    @property
-    def extinction_s(self) -> float | None:
-        """Instant of the final extinction, None when censored or not found."""
-        return None if self.extinction is None else self.extinction.t_s
 
 
 def _open_voltage_role(record: Record, phase: str) -> str:
@@ -462,6 +394,19 @@ def detect_extinction(
         )
     last_valid = int(np.flatnonzero(valid)[-1])
     if s.size and e[-1] > last_valid:
+        late = _late_extinction(
+            record,
+            q,
+            role=role,
+            phase=phase,
+            arc_start_s=arc_start_s,
+            observed=observed,
+            intervals=intervals,
+            arc_amp=tr.arc_amplitude_v,
+            why="the arc signature reaches the end of the observation",
+        )
+        if late is not None:
+            return late
         return ExtinctionResult(
             None,
             True,
@@ -487,6 +432,20 @@ def detect_extinction(
     if valid_idx.size > 2 * n_tail:
         h_tail = finite_median(tr.hratio[valid_idx[-n_tail:]])
         if h_tail >= weak_tail:
+            late = _late_extinction(
+                record,
+                q,
+                role=role,
+                phase=phase,
+                arc_start_s=arc_start_s,
+                observed=observed,
+                intervals=intervals,
+                arc_amp=tr.arc_amplitude_v,
+                why=f"a weak arc signature (harmonic ratio {h_tail:.2f}) reaches the last "
+                "three cycles",
+            )
+            if late is not None:
+                return late
             return ExtinctionResult(
                 None,
                 True,
@@ -680,6 +639,69 @@ def detect_extinction(
     )
     return ExtinctionResult(
         ev, False, observed, arc_start_s, intervals, tr.arc_amplitude_v, tuple(warns)
+    )
+
+
+def _late_extinction(
+    record: Record,
+    q: Quantities,
+    *,
+    role: str,
+    phase: str,
+    arc_start_s: float,
+    observed: float,
+    intervals: tuple[tuple[float, float], ...],
+    arc_amp: float | None,
+    why: str,
+) -> ExtinctionResult | None:
+    """An extinction too close to the end of the observation for the harmonic window.
+
+    Called where the arc signature reaches the last three cycles (``why`` says how): if
+    the last cycle is a clean recovery (:func:`recordscan.detect.faint_loops.recovered_tail`)
+    the arc went out just before it.
+    """
+    ch = record.analog_by_role(role)
+    if ch is None:
+        return None
+    k = record.n_samples - 1 if observed >= record.t_s[-1] else q.idx(observed)
+    seg = q.segment_at(k)
+    lo, hi = seg.start_idx, seg.stop_idx
+    got = recovered_tail(
+        finite_values(ch.values[lo:hi]),
+        record.t_s[lo:hi],
+        f_hz=q.f_hz,
+        t_end_s=observed,
+        noise_v=q.noise(role),
+    )
+    if got is None or got.t_s <= arc_start_s:
+        return None
+    ev = Event(
+        kind="extinction",
+        t_s=got.t_s,
+        uncertainty_s=0.5 * q.cycle_s,
+        method="last departure from the clean recovery of the final cycle (extinction "
+        "less than three cycles before the end of the observation)",
+        confidence=0.6,
+        evidence=Evidence(
+            summary=f"{why}; the last cycle observed fits a clean recovery voltage (residual at "
+            f"the noise) and the voltage last departed from it by more than "
+            f"{got.threshold_v:.3g} V at {got.t_s * 1e3:.1f} ms",
+            quantities={"threshold_v": got.threshold_v, "peak_departure_v": got.peak_departure_v},
+            channels=(q.channel_name(role),),
+        ),
+        phase=phase,
+    )
+    return ExtinctionResult(
+        ev,
+        False,
+        observed,
+        arc_start_s,
+        intervals,
+        arc_amp,
+        (
+            "extinction less than three cycles before the end of the observation: placed on "
+            "the last cycle's clean recovery, to half a cycle",
+        ),
     )
 
 
