@@ -578,7 +578,11 @@ def detect_extinction(
             f_hz=q.f_hz,
             t_ext_s=t_ext,
             t_end_s=observed,
-            free_hz=free_frequency_hz if beat_check else None,
+            free_hz=(
+                (rd.free_frequency_hz if rd is not None else free_frequency_hz)
+                if beat_check
+                else None
+            ),
             max_departure_v=arc_amp,
         )
     if fl is not None:
