@@ -12,6 +12,7 @@ fault inception seen by both).
 
 from __future__ import annotations
 
+import dataclasses
 import datetime as _dt
 from collections.abc import Mapping
 from dataclasses import dataclass, field
@@ -23,7 +24,7 @@ import numpy as np
 
 from recordscan.core.events import Event
 from recordscan.core.record import Record
-from recordscan.core.roles import ARC_CURRENT
+from recordscan.core.roles import ARC_CURRENT, V_LINE
 from recordscan.detect._base import Quantities, decimate_record, where
 from recordscan.detect.classify import Classification, classify_event, fault_current_rms
 from recordscan.detect.inception import (
@@ -701,6 +702,7 @@ def analyse(
             loc = None
     # ---------------------------------------------------------------- line estimate
     est_v = est_a = est_fn = None
+    expect_pu: tuple[complex, complex] | None = None
     if ld is not None:
         try:
             from recordscan.physics.coupling import open_phase_coupling
@@ -713,6 +715,8 @@ def analyse(
             )
             est_v, est_a = cp.recovery_voltage_rms_v, cp.secondary_arc_current_rms_a
             est_fn = cp.free_frequency_hz
+            if ld.compensation == 0:
+                expect_pu = (cp.recovery_phasor_from_end_pu, cp.bolted_phasor_from_end_pu)
         except RecordScanError as exc:
             warns.append(f"line estimate unavailable: {exc}")
     level_min = opts.level_min
@@ -758,6 +762,8 @@ def analyse(
             beat_check=ld is not None and ld.compensation > 0,
             free_frequency_hz=est_fn,
         )
+        if expect_pu is not None:
+            ext = _bolted_check(ext, q, p, until, expect_pu)
         warns += list(ext.warnings)
         if ext.extinction_s is not None:
             restrikes = [r for r in restrikes if r.t_s < ext.extinction_s]
@@ -861,3 +867,58 @@ def _safe_prefault(
 def _uniq(warns: list[str], pre: PrefaultState | None) -> tuple[str, ...]:
     allw = list(pre.warnings if pre else ()) + warns
     return tuple(dict.fromkeys(allw))
+
+
+def _bolted_check(
+    ext: ExtinctionResult,
+    q: Quantities,
+    phase: str,
+    until_s: float,
+    expect_pu: tuple[complex, complex],
+) -> ExtinctionResult:
+    """Withdraw an extinction when the open phase then carries a bolted-fault voltage.
+
+    ``expect_pu`` holds the phasors the recording end should see after an extinction and
+    while the fault path is a short, over the open phase's own rated phasor (line
+    description, :func:`recordscan.physics.coupling.open_phase_coupling`; used on
+    uncompensated lines, where the two differ in angle as well as size). The measured
+    phasor, over ``−(V_j + V_l)`` of the healthy phases (the open phase's own voltage in a
+    balanced system), is the median from two cycles after the extinction to half a cycle
+    before the end of the observation. Nearer the bolted phasor: the fault path still
+    conducts (a permanent fault), and the apparent recovery was the end of the switching
+    transient.
+    """
+    rec_pu, bolt_pu = expect_pu
+    if ext.extinction_s is None or not (np.isfinite(rec_pu) and np.isfinite(bolt_pu)):
+        return ext
+    others = [x for x in ("A", "B", "C") if x != phase]
+    v_open = q.phasor(V_LINE[phase]) if q.values(V_LINE[phase]) is not None else None
+    if v_open is None or any(q.values(V_LINE[x]) is None for x in others):
+        return ext
+    ref = -(q.phasor(V_LINE[others[0]]) + q.phasor(V_LINE[others[1]]))
+    k0 = q.idx(ext.extinction_s + 2.0 * q.cycle_s)
+    k1 = q.idx(until_s - 0.5 * q.cycle_s)
+    if k1 - k0 < 2:
+        return ext
+    with np.errstate(invalid="ignore", divide="ignore"):
+        ratio = v_open[k0:k1] / ref[k0:k1]
+    ratio = ratio[np.isfinite(ratio)]
+    if ratio.size < 2:
+        return ext
+    meas = complex(float(np.median(ratio.real)), float(np.median(ratio.imag)))
+    if abs(meas - bolt_pu) >= abs(meas - rec_pu):
+        return ext
+    return dataclasses.replace(
+        ext,
+        extinction=None,
+        censored=True,
+        warnings=(
+            *ext.warnings,
+            f"after the arc signature ended the open phase carried {abs(meas):.1%} of its rated "
+            f"voltage at {np.degrees(np.angle(meas)):.0f} deg, nearer the "
+            f"{abs(bolt_pu):.1%} at {np.degrees(np.angle(bolt_pu)):.0f} deg expected while "
+            f"the fault path conducts than the {abs(rec_pu):.1%} at "
+            f"{np.degrees(np.angle(rec_pu)):.0f} deg of a recovery (line description): a "
+            "permanent fault suspected; no extinction reported",
+        ),
+    )

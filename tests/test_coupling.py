@@ -424,3 +424,20 @@ def test_recovery_voltage_peak_against_time_domain(
     assert peak <= bound * (1 + 2e-5)
     # the carrier peak nearest the envelope peak can fall slightly short of it
     assert peak >= bound * (1 - 2e-5 if bank is None else 0.98)
+
+
+def test_bolted_fault_voltages_at_the_line_ends() -> None:
+    """While the fault path is a short (a permanent fault), the open conductor is grounded at
+    the fault: in the lumped limit (negligible series impedance) it is at ground potential
+    everywhere, and on any line the end at the fault reads zero (derived). The recovery
+    phasor at the end carries the same magnitude as the reported end voltage."""
+    lumped = open_phase_coupling(_lumped(), faulted_phase="A", fault_at_m=0.5 * LENGTH_M)
+    assert abs(lumped.bolted_phasor_from_end_pu) < 1e-5
+    assert lumped.bolted_voltage_to_end_v < 1e-5 * V_PH
+    real = open_phase_coupling(_real(), faulted_phase="B", fault_at_m=0.0, load_current_a=600.0)
+    assert real.bolted_voltage_from_end_v < 1e-6 * V_PH
+    assert real.bolted_voltage_to_end_v > 0.01 * V_PH  # induced along the whole conductor
+    assert abs(real.recovery_phasor_from_end_pu) * V_PH == pytest.approx(
+        real.recovery_voltage_from_end_v, rel=1e-9
+    )
+    assert real.to_dict()["bolted_voltage_to_end_v"] == real.bolted_voltage_to_end_v

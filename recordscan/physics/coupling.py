@@ -113,6 +113,14 @@ class CouplingResult:
         Its components.
     recovery_voltage_from_end_v, recovery_voltage_to_end_v : float
         Open-phase voltage at the two line ends after extinction.
+    bolted_voltage_from_end_v, bolted_voltage_to_end_v : float
+        Open-phase voltage at the two line ends while the fault path is a short (a bolted
+        or permanent fault, or a burning arc of negligible voltage): what is induced along
+        the open conductor between the end and the fault.
+    recovery_phasor_from_end_pu, bolted_phasor_from_end_pu : complex
+        The same two voltages at the "from" end as phasors over the open phase's own rated
+        phasor (angle included): what the recording end should see after an extinction and
+        while the fault path still conducts.
     compensation : float
         Positive-sequence compensation degree of the reactor banks.
     phase_reactor_ohm, neutral_reactor_ohm : tuple
@@ -152,6 +160,10 @@ class CouplingResult:
     transposed: bool
     n_sections: int
     profile: FaultProfile | None = field(default=None, repr=False)
+    bolted_voltage_from_end_v: float = math.nan
+    bolted_voltage_to_end_v: float = math.nan
+    recovery_phasor_from_end_pu: complex = complex(math.nan, math.nan)
+    bolted_phasor_from_end_pu: complex = complex(math.nan, math.nan)
 
     @property
     def recovery_voltage_pu(self) -> float:
@@ -193,6 +205,8 @@ class CouplingResult:
             "recovery_voltage_inductive_v": self.recovery_voltage_inductive_v,
             "recovery_voltage_from_end_v": self.recovery_voltage_from_end_v,
             "recovery_voltage_to_end_v": self.recovery_voltage_to_end_v,
+            "bolted_voltage_from_end_v": self.bolted_voltage_from_end_v,
+            "bolted_voltage_to_end_v": self.bolted_voltage_to_end_v,
             "compensation": self.compensation,
             "phase_reactor_ohm": list(self.phase_reactor_ohm),
             "neutral_reactor_ohm": list(self.neutral_reactor_ohm),
@@ -353,6 +367,7 @@ class _Point:
     v_ind: complex
     v_ends_cap: tuple[complex, complex]
     v_ends_ind: tuple[complex, complex]
+    v_ends_bolted: tuple[complex, complex]
 
 
 def _evaluate(
@@ -396,13 +411,14 @@ def _evaluate(
         ind_cols = v[:, 1:3] @ dv
         out[case] = (v, i_fixed, dv, ind_cols)
 
-    v, i_fixed, dv, _ = out["arc"]
+    a_idx, b_idx = k, 3 * (n - 1) + k
+    v, i_fixed, dv, ind = out["arc"]
     i_cap = -i_fixed[-1, 0]
     i_ind = -(i_fixed[-1, 1:3] @ dv)
+    bolted = (complex(v[a_idx, 0] + ind[a_idx]), complex(v[b_idx, 0] + ind[b_idx]))
     v, _, dv, ind = out["rec"]
     v_cap = v[f_idx, 0]
     v_ind = ind[f_idx]
-    a_idx, b_idx = k, 3 * (n - 1) + k
     return _Point(
         i_cap=complex(i_cap),
         i_ind=complex(i_ind),
@@ -410,6 +426,7 @@ def _evaluate(
         v_ind=complex(v_ind),
         v_ends_cap=(complex(v[a_idx, 0]), complex(v[b_idx, 0])),
         v_ends_ind=(complex(ind[a_idx]), complex(ind[b_idx])),
+        v_ends_bolted=bolted,
     )
 
 
@@ -541,6 +558,10 @@ def open_phase_coupling(
         transposed=line.transposed,
         n_sections=int(nodes.size - 1),
         profile=profile,
+        bolted_voltage_from_end_v=abs(p.v_ends_bolted[0]),
+        bolted_voltage_to_end_v=abs(p.v_ends_bolted[1]),
+        recovery_phasor_from_end_pu=complex((p.v_ends_cap[0] + p.v_ends_ind[0]) / v_src[k]),
+        bolted_phasor_from_end_pu=complex(p.v_ends_bolted[0] / v_src[k]),
     )
 
 
