@@ -571,7 +571,9 @@ def detect_extinction(
     # the arc's last loops may be too faint for the harmonic signature (or the band-passed
     # ring-down): look for departures from the recovery waveform just after the instant
     fl = None
-    if not method.startswith("onset"):
+    # (not after a step of the level, a sharp change that the CVT's transient then follows,
+    # nor after the onset of the beat)
+    if not method.startswith(("onset", "last step")):
         fl = faint_loops_in_record(
             refine_record or record,
             role,
