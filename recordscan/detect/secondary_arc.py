@@ -394,16 +394,20 @@ def detect_extinction(
         )
     last_valid = int(np.flatnonzero(valid)[-1])
     if s.size and e[-1] > last_valid:
-        late = _late_extinction(
-            record,
-            q,
-            role=role,
-            phase=phase,
-            arc_start_s=arc_start_s,
-            observed=observed,
-            intervals=intervals,
-            arc_amp=tr.arc_amplitude_v,
-            why="the arc signature reaches the end of the observation",
+        late = (
+            None
+            if beat_check
+            else _late_extinction(
+                record,
+                q,
+                role=role,
+                phase=phase,
+                arc_start_s=arc_start_s,
+                observed=observed,
+                intervals=intervals,
+                arc_amp=tr.arc_amplitude_v,
+                why="the arc signature reaches the end of the observation",
+            )
         )
         if late is not None:
             return late
@@ -432,17 +436,21 @@ def detect_extinction(
     if valid_idx.size > 2 * n_tail:
         h_tail = finite_median(tr.hratio[valid_idx[-n_tail:]])
         if h_tail >= weak_tail:
-            late = _late_extinction(
-                record,
-                q,
-                role=role,
-                phase=phase,
-                arc_start_s=arc_start_s,
-                observed=observed,
-                intervals=intervals,
-                arc_amp=tr.arc_amplitude_v,
-                why=f"a weak arc signature (harmonic ratio {h_tail:.2f}) reaches the last "
-                "three cycles",
+            late = (
+                None
+                if beat_check
+                else _late_extinction(
+                    record,
+                    q,
+                    role=role,
+                    phase=phase,
+                    arc_start_s=arc_start_s,
+                    observed=observed,
+                    intervals=intervals,
+                    arc_amp=tr.arc_amplitude_v,
+                    why=f"a weak arc signature (harmonic ratio {h_tail:.2f}) reaches the last "
+                    "three cycles",
+                )
             )
             if late is not None:
                 return late
