@@ -424,8 +424,10 @@ def pooled(scores: list[Score]) -> Score:
     return out
 
 
-def write_pooled(out_dir: Path, per_seed: dict[int, Score], *, n: int) -> Path:
-    """Write ``scan-seeds.md``: one row per corpus and the pooled figures."""
+def write_pooled(
+    out_dir: Path, per_seed: dict[int, Score], *, n: int, name: str = "scan-seeds"
+) -> Path:
+    """Write ``<name>.md``: one row per corpus and the pooled figures."""
     seeds = list(per_seed)
     rows = [*per_seed.items(), ("all", pooled(list(per_seed.values())))]
     lines = [
@@ -462,7 +464,7 @@ def write_pooled(out_dir: Path, per_seed: dict[int, Score], *, n: int) -> Path:
         "Restrike counts are true positives / false positives / missed. Per-corpus reports "
         "with every miss: " + ", ".join(f"[seed {k}](scan-seed-{k}.md)" for k in seeds) + ".",
     ]
-    md = out_dir / "scan-seeds.md"
+    md = out_dir / f"{name}.md"
     out_dir.mkdir(parents=True, exist_ok=True)
     md.write_text("\n".join(lines) + "\n", encoding="utf-8")
     return md
@@ -471,7 +473,8 @@ def write_pooled(out_dir: Path, per_seed: dict[int, Score], *, n: int) -> Path:
 @pytest.mark.accuracy
 def test_scan_accuracy_on_simulated_corpus() -> None:
     """RECORDSCAN_ACCURACY_SEED may list several seeds (``2026,7,11``): the floors then apply
-    to the pooled figures, and a table of every corpus is written beside the reports."""
+    to the pooled figures, and a table of every corpus is written beside the reports
+    (``scan-seeds.md``, or RECORDSCAN_ACCURACY_NAME``.md``)."""
     n = int(os.environ.get("RECORDSCAN_ACCURACY_N", "150"))
     seeds = [int(x) for x in os.environ.get("RECORDSCAN_ACCURACY_SEED", "2026").split(",")]
     report_dir = os.environ.get("RECORDSCAN_ACCURACY_REPORT")
@@ -491,7 +494,8 @@ def test_scan_accuracy_on_simulated_corpus() -> None:
         for line in summary_lines(s):
             print(line)
         if report_dir:
-            write_pooled(Path(report_dir), per_seed, n=n)
+            name = os.environ.get("RECORDSCAN_ACCURACY_NAME", "scan-seeds")
+            write_pooled(Path(report_dir), per_seed, n=n, name=name)
     ok, tot = s.within()
     assert s.false_chain == 0
     assert ok >= 0.95 * tot
