@@ -393,22 +393,25 @@ def detect_extinction(
             ("the open phase was observed for less than a cycle after the arc start",),
         )
     last_valid = int(np.flatnonzero(valid)[-1])
-    if s.size and e[-1] > last_valid:
-        late = (
-            None
-            if beat_check
-            else _late_extinction(
-                record,
-                q,
-                role=role,
-                phase=phase,
-                arc_start_s=arc_start_s,
-                observed=observed,
-                intervals=intervals,
-                arc_amp=tr.arc_amplitude_v,
-                why="the arc signature reaches the end of the observation",
-            )
+
+    def late_or_none(why: str) -> ExtinctionResult | None:
+        # an extinction too close to the end for the harmonic window (not with the beat)
+        if beat_check:
+            return None
+        return _late_extinction(
+            record,
+            q,
+            role=role,
+            phase=phase,
+            arc_start_s=arc_start_s,
+            observed=observed,
+            intervals=intervals,
+            arc_amp=tr.arc_amplitude_v,
+            why=why,
         )
+
+    if s.size and e[-1] > last_valid:
+        late = late_or_none("the arc signature reaches the end of the observation")
         if late is not None:
             return late
         return ExtinctionResult(
@@ -436,21 +439,8 @@ def detect_extinction(
     if valid_idx.size > 2 * n_tail:
         h_tail = finite_median(tr.hratio[valid_idx[-n_tail:]])
         if h_tail >= weak_tail:
-            late = (
-                None
-                if beat_check
-                else _late_extinction(
-                    record,
-                    q,
-                    role=role,
-                    phase=phase,
-                    arc_start_s=arc_start_s,
-                    observed=observed,
-                    intervals=intervals,
-                    arc_amp=tr.arc_amplitude_v,
-                    why=f"a weak arc signature (harmonic ratio {h_tail:.2f}) reaches the last "
-                    "three cycles",
-                )
+            late = late_or_none(
+                f"a weak arc signature (harmonic ratio {h_tail:.2f}) reaches the last three cycles"
             )
             if late is not None:
                 return late
