@@ -40,6 +40,17 @@ def samples_per_cycle(fs_hz: float, f_hz: float) -> float:
     return fs_hz / f_hz
 
 
+def _window_parts(length: float) -> tuple[int, float, int]:
+    """Whole samples, fractional weight of the oldest one, and the first full index."""
+    if length < 1:
+        raise ValueError("window length must be at least one sample")
+    n_full = int(np.floor(length + 1e-9))
+    frac = float(length - n_full)
+    if frac < 1e-9:
+        frac = 0.0
+    return n_full, frac, (n_full if frac > 0 else n_full - 1)
+
+
 def sliding_window_sum(z: np.ndarray, length: float) -> np.ndarray:
     """Causal sliding sum of ``z`` over a window of ``length`` samples (fractional allowed).
 
@@ -57,14 +68,8 @@ def sliding_window_sum(z: np.ndarray, length: float) -> np.ndarray:
     """
     z = np.asarray(z)
     n = z.shape[-1]
-    if length < 1:
-        raise ValueError("window length must be at least one sample")
-    n_full = int(np.floor(length + 1e-9))
-    frac = float(length - n_full)
-    if frac < 1e-9:
-        frac = 0.0
+    n_full, frac, first = _window_parts(length)
     dtype = np.complex128 if np.iscomplexobj(z) else np.float64
-    first = n_full if frac > 0 else n_full - 1
     if n <= first:
         return np.full(z.shape, np.nan, dtype=dtype)
     out = np.empty(z.shape, dtype=dtype)
@@ -188,13 +193,7 @@ def _sliding_sum_of_temporary(z: np.ndarray, length: float) -> np.ndarray:
     and the fractional oldest sample is weighted in place in ``z``.
     """
     n = z.shape[-1]
-    if length < 1:
-        raise ValueError("window length must be at least one sample")
-    n_full = int(np.floor(length + 1e-9))
-    frac = float(length - n_full)
-    if frac < 1e-9:
-        frac = 0.0
-    first = n_full if frac > 0 else n_full - 1
+    n_full, frac, first = _window_parts(length)
     out = np.empty(z.shape, dtype=np.complex128)
     if n <= first:
         out[...] = np.nan
