@@ -288,14 +288,18 @@ class Quantities:
 
         return self._cached(role, "phasor", make)
 
+    def _todo(self, roles: Iterable[str], kind: str) -> list[str]:
+        """The recorded roles whose ``kind`` is not cached yet (each once, in order)."""
+        return [
+            r
+            for r in dict.fromkeys(roles)
+            if (r, kind) not in self._cache and self.values(r) is not None
+        ]
+
     def prefetch_phasors(self, roles: Iterable[str]) -> None:
         """Compute the :meth:`phasor` of several roles together (one 2-D pass per segment;
         the same values as one role at a time)."""
-        todo = [
-            r
-            for r in dict.fromkeys(roles)
-            if (r, "phasor") not in self._cache and self.values(r) is not None
-        ]
+        todo = self._todo(roles, "phasor")
         if len(todo) < 2:
             return
         f = self.f_hz
@@ -343,11 +347,7 @@ class Quantities:
     def prefetch_deltas(self, roles: Iterable[str]) -> None:
         """Compute the :meth:`delta` of several roles together (one 2-D pass per segment;
         the same values as one role at a time)."""
-        todo = [
-            r
-            for r in dict.fromkeys(roles)
-            if (r, "delta") not in self._cache and self.values(r) is not None
-        ]
+        todo = self._todo(roles, "delta")
         if len(todo) < 2:
             return
         f = self.f_hz
