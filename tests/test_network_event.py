@@ -241,18 +241,23 @@ def test_arc_in_the_network_follows_the_arc_model() -> None:
 
 
 def test_truth_extinction_is_the_end_of_conduction() -> None:
-    """An AC arc goes out at its last current zero; an arc that conducted a unipolar current
-    for more than half a cycle after that zero went out when its criterion fired (the
-    definition in recordscan.physics.network.event._conduction_end; derived, no source)."""
+    """An AC arc goes out at its last current zero; an arc that went on conducting after it
+    (a unipolar discharge, or the loop after a re-ignition) went out where that conduction
+    ended (the definition in recordscan.physics.network.event._conduction_end; derived, no
+    source)."""
     from recordscan.physics.network.event import _conduction_end
 
     f = 50.0
     t = np.arange(0.0, 0.2, 20e-6)
-    g = np.where(t < 0.1 + 0.3 / f, 1e-3, 0.0)  # criterion 0.3 cycle after the zero at 0.1 s
-    assert _conduction_end(0.1, t, g, f) == 0.1
-    g = np.where(t < 0.1 + 2.0 / f, 1e-3, 0.0)  # conducted two more cycles without a zero
-    assert _conduction_end(0.1, t, g, f) == pytest.approx(0.1 + 2.0 / f, abs=2 * 20e-6)
-    assert _conduction_end(0.1, t, np.full_like(t, 1e-3), f) == 0.1  # never went out
+    # AC arc: last zero at 0.1 s, criterion 0.3 cycle later
+    i = np.where(t < 0.1, 100.0 * np.sin(2 * np.pi * f * (t - 0.1)), 0.0)
+    g = np.where(t < 0.1 + 0.3 / f, 1e-3, 0.0)
+    assert _conduction_end(0.1, t, i, g, f) == pytest.approx(0.1, abs=1e-9)
+    # a unipolar current (no zero) for two more cycles, decaying until the criterion fires
+    i2 = np.where(t < 0.1, i, np.where(t < 0.1 + 2.0 / f, 30.0 * np.exp(-(t - 0.1) / 0.05), 0.0))
+    g2 = np.where(t < 0.1 + 2.0 / f, 1e-3, 0.0)
+    assert _conduction_end(0.1, t, i2, g2, f) == pytest.approx(0.1 + 2.0 / f, abs=2 * 20e-6)
+    assert _conduction_end(0.1, t, i, np.full_like(t, 1e-3), f) == 0.1  # never went out
 
 
 def test_park_miller_generator_meets_its_published_check_value() -> None:
@@ -321,7 +326,7 @@ def test_compiled_restrike_race_matches_the_readable_model() -> None:
     res = simulate_event(spec)
     tr = res.truth
     t_r = tr.restrike_s[0]
-    t_x = max(e for e in tr.extinctions_s if e < t_r)
+    t_x = max(e for e in tr.race_start_s if e < t_r)  # where the kernel's race started
     t = res.t_s
     burning = res.arc_g_siemens > 0.0
     sel = (t >= tr.secondary_arc_start_s) & (t < t_x) & burning

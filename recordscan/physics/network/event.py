@@ -296,6 +296,9 @@ class EventTruth:
     "restrike"), each following one of ``extinctions_s``; ``reignition_s`` those within
     less than a quarter cycle of a current zero (IEC 60050-441 "re-ignition"), after which
     the arc goes on in its channel — their current zeros are not listed as extinctions.
+    ``extinctions_s`` are the instants the arc stopped conducting (``_conduction_end``);
+    ``race_start_s`` the kernel's own instants for the same extinctions, where each race
+    between recovery voltage and withstand starts (last current zero or re-ignition).
     """
 
     inception_s: float | None
@@ -314,6 +317,7 @@ class EventTruth:
     recovery_voltage_rms_v: float | None
     primary_fault_current_rms_a: float | None
     reignition_s: tuple[float, ...] = ()
+    race_start_s: tuple[float, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -654,24 +658,34 @@ def _rms(x: np.ndarray) -> float | None:
     return float(np.sqrt(np.mean(np.square(x)))) if x.size else None
 
 
-def _conduction_end(t_x: float, t_s: np.ndarray, arc_g: np.ndarray, f_hz: float) -> float:
+def _conduction_end(
+    t_x: float, t_s: np.ndarray, arc_i: np.ndarray, arc_g: np.ndarray, f_hz: float
+) -> float:
     """The instant an extinguished arc stopped conducting, from its logged extinction ``t_x``.
 
-    The kernel logs an extinction at the arc's last current zero (where the dielectric race
-    of Johns et al. 1994 starts). An AC arc goes out there: its extinction criterion fires a
-    fraction of a cycle later, while the conductance of the cooling channel decays. When the
-    criterion fires more than half a cycle after that zero, the arc conducted a unipolar
-    current in between (on a shunt-compensated line, the discharge of the open phase's
-    trapped charge and reactor current through the arc after the pole opening), so it went
-    out when the criterion fired: that instant (the first sample with the conductance set
-    to zero) is returned instead.
+    The kernel logs an extinction at the arc's last current zero, or at its last re-ignition
+    when the current had no zero since (the dielectric race of Johns et al. 1994 starts
+    there), and the extinction criterion fires a fraction of a cycle later, while the
+    conductance of the cooling channel decays. What the arc conducted in between decides
+    the instant it went out: the last sample, before the criterion fired (the first sample
+    with the conductance set to zero), whose current exceeds 5 % of the largest current over
+    the cycle before it. For an AC arc that is its last current zero (to a few
+    microseconds); for a unipolar current (on a shunt-compensated line, the discharge of the
+    open phase's trapped charge and reactor current through the arc after the pole opening)
+    or the loop that follows a re-ignition, the end of that conduction.
     """
     k = int(np.searchsorted(t_s, t_x))
     off = np.flatnonzero(arc_g[k:] <= 0.0)
     if off.size == 0:
         return t_x
-    t_c = float(t_s[k + int(off[0])])
-    return t_c if t_c - t_x > 0.5 / f_hz else t_x
+    kc = k + int(off[0])
+    dt = float(t_s[1] - t_s[0]) if t_s.size > 1 else 0.0
+    k0 = max(kc - int(np.ceil(1.0 / (f_hz * dt))) if dt > 0 else 0, 0)
+    seg = np.abs(arc_i[k0:kc])
+    if seg.size == 0 or not np.any(seg > 0):
+        return t_x
+    on = np.flatnonzero(seg > 0.05 * float(seg.max()))
+    return max(float(t_s[k0 + int(on[-1])]), min(t_x, float(t_s[kc])))
 
 
 def _truth(spec: EventSpec, rows: np.ndarray, t_s: np.ndarray, arc_i: np.ndarray,
@@ -714,12 +728,10 @@ def _truth(spec: EventSpec, rows: np.ndarray, t_s: np.ndarray, arc_i: np.ndarray
     # an extinction followed by a re-ignition (current back within a quarter cycle) was no
     # interruption of the arc: it is not listed
     undone = {max(e for e in times("extinction") if e <= t) for t in reignitions}
-    exts = tuple(
-        _conduction_end(t, t_s, arc_g, spec.frequency_hz)
-        for t in times("extinction")
-        if t not in undone
-    )
-    exts = tuple(t for t in exts if t < limit)
+    race = tuple(t for t in times("extinction") if t not in undone)
+    ends = tuple(_conduction_end(t, t_s, arc_i, arc_g, spec.frequency_hz) for t in race)
+    race = tuple(r for r, t in zip(race, ends, strict=True) if t < limit)
+    exts = tuple(t for t in ends if t < limit)
     final_ext = None
     if exts and (not restrikes or exts[-1] > restrikes[-1]):
         final_ext = exts[-1]
@@ -754,6 +766,7 @@ def _truth(spec: EventSpec, rows: np.ndarray, t_s: np.ndarray, arc_i: np.ndarray
         secondary_arc_start_s=sec_start,
         restrike_s=restrikes,
         reignition_s=reignitions,
+        race_start_s=race,
         extinction_s=final_ext,
         extinctions_s=exts,
         reclose_s=reclose,
