@@ -241,10 +241,10 @@ def test_arc_in_the_network_follows_the_arc_model() -> None:
 
 
 def test_truth_extinction_is_the_end_of_conduction() -> None:
-    """An AC arc goes out at its last current zero; an arc that went on conducting after it
-    (a unipolar discharge, or the loop after a re-ignition) went out where that conduction
-    ended (the definition in recordscan.physics.network.event._conduction_end; derived, no
-    source)."""
+    """An AC arc goes out at its last current zero (what follows is post-arc current; common
+    practice); an arc that went on conducting after it (a unipolar discharge longer than half
+    a cycle, or the loop after a re-ignition) went out where that conduction ended (the
+    definition in recordscan.physics.network.event._conduction_end; derived, no source)."""
     from recordscan.physics.network.event import _conduction_end
 
     f = 50.0
@@ -258,6 +258,14 @@ def test_truth_extinction_is_the_end_of_conduction() -> None:
     g2 = np.where(t < 0.1 + 2.0 / f, 1e-3, 0.0)
     assert _conduction_end(0.1, t, i2, g2, f) == pytest.approx(0.1 + 2.0 / f, abs=2 * 20e-6)
     assert _conduction_end(0.1, t, i, np.full_like(t, 1e-3), f) == 0.1  # never went out
+    # a re-ignition at 0.1 s followed by one loop of 0.4 cycle without a zero
+    i3 = np.where(
+        (t >= 0.1) & (t < 0.1 + 0.4 / f), -250.0 * np.sin(np.pi * (t - 0.1) * f / 0.4), 0.0
+    )
+    g3 = np.where(t < 0.1 + 0.45 / f, 1e-3, 0.0)
+    assert _conduction_end(0.1, t, i3, g3, f) == 0.1  # taken as a current zero...
+    end = _conduction_end(0.1, t, i3, g3, f, after_reignition=True)  # ...unless re-ignited
+    assert end == pytest.approx(0.1 + 0.4 / f, abs=0.02 / f)
 
 
 def test_park_miller_generator_meets_its_published_check_value() -> None:

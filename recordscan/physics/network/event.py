@@ -659,33 +659,42 @@ def _rms(x: np.ndarray) -> float | None:
 
 
 def _conduction_end(
-    t_x: float, t_s: np.ndarray, arc_i: np.ndarray, arc_g: np.ndarray, f_hz: float
+    t_x: float,
+    t_s: np.ndarray,
+    arc_i: np.ndarray,
+    arc_g: np.ndarray,
+    f_hz: float,
+    *,
+    after_reignition: bool = False,
 ) -> float:
     """The instant an extinguished arc stopped conducting, from its logged extinction ``t_x``.
 
     The kernel logs an extinction at the arc's last current zero, or at its last re-ignition
-    when the current had no zero since (the dielectric race of Johns et al. 1994 starts
-    there), and the extinction criterion fires a fraction of a cycle later, while the
-    conductance of the cooling channel decays. What the arc conducted in between decides
-    the instant it went out: the last sample, before the criterion fired (the first sample
-    with the conductance set to zero), whose current exceeds 5 % of the largest current over
-    the cycle before it. For an AC arc that is its last current zero (to a few
-    microseconds); for a unipolar current (on a shunt-compensated line, the discharge of the
-    open phase's trapped charge and reactor current through the arc after the pole opening)
-    or the loop that follows a re-ignition, the end of that conduction.
+    when the current has had no zero since (the dielectric race of Johns et al. 1994 starts
+    there); the extinction criterion fires a fraction of a cycle later, while the conductance
+    of the cooling channel decays. An AC arc goes out at that current zero: what flows after
+    it is the post-arc current of the cooling channel (common practice: interruption is at
+    the current zero that is not followed by a re-ignition). But when ``t_x`` is a
+    re-ignition or restrike instant (``after_reignition``), or the criterion fires more
+    than half a cycle after ``t_x`` (a unipolar current: on a shunt-compensated line, the
+    open phase's trapped charge and reactor current discharging through the arc after the
+    pole opening), the arc
+    conducted a loop of its own after ``t_x``: it went out where that conduction ended, the
+    last sample before the criterion fired whose current exceeds 5 % of the largest since
+    ``t_x``.
     """
     k = int(np.searchsorted(t_s, t_x))
     off = np.flatnonzero(arc_g[k:] <= 0.0)
     if off.size == 0:
         return t_x
     kc = k + int(off[0])
-    dt = float(t_s[1] - t_s[0]) if t_s.size > 1 else 0.0
-    k0 = max(kc - int(np.ceil(1.0 / (f_hz * dt))) if dt > 0 else 0, 0)
-    seg = np.abs(arc_i[k0:kc])
-    if seg.size == 0 or not np.any(seg > 0):
+    if not after_reignition and float(t_s[kc]) - t_x <= 0.5 / f_hz:
         return t_x
+    seg = np.abs(arc_i[k:kc])
+    if seg.size == 0 or not np.any(seg > 0):
+        return float(t_s[kc])
     on = np.flatnonzero(seg > 0.05 * float(seg.max()))
-    return max(float(t_s[k0 + int(on[-1])]), min(t_x, float(t_s[kc])))
+    return max(float(t_s[k + int(on[-1])]), t_x)
 
 
 def _truth(spec: EventSpec, rows: np.ndarray, t_s: np.ndarray, arc_i: np.ndarray,
@@ -729,7 +738,20 @@ def _truth(spec: EventSpec, rows: np.ndarray, t_s: np.ndarray, arc_i: np.ndarray
     # interruption of the arc: it is not listed
     undone = {max(e for e in times("extinction") if e <= t) for t in reignitions}
     race = tuple(t for t in times("extinction") if t not in undone)
-    ends = tuple(_conduction_end(t, t_s, arc_i, arc_g, spec.frequency_hz) for t in race)
+    # a re-ignition or restrike instant logged as the race start: no current zero since
+    reig = np.asarray(times("reignition") + times("restrike"))
+    half_step = 0.5 * float(t_s[1] - t_s[0]) if t_s.size > 1 else 0.0
+    ends = tuple(
+        _conduction_end(
+            t,
+            t_s,
+            arc_i,
+            arc_g,
+            spec.frequency_hz,
+            after_reignition=bool(reig.size and np.min(np.abs(reig - t)) <= half_step),
+        )
+        for t in race
+    )
     race = tuple(r for r, t in zip(race, ends, strict=True) if t < limit)
     exts = tuple(t for t in ends if t < limit)
     final_ext = None
