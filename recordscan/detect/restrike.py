@@ -19,6 +19,8 @@ collapse (:func:`_collapses`), and a reset of a growing arc voltage (:func:`_lev
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 from numpy.lib.stride_tricks import sliding_window_view
 
@@ -31,7 +33,7 @@ from recordscan.signal.charfunc import fast_median, finite_array_median
 from recordscan.signal.filters import moving_average, running_max
 from recordscan.signal.onset import runs
 
-__all__ = ["detect_restrikes", "local_arc_level"]
+__all__ = ["RecoveryFit", "detect_restrikes", "local_arc_level", "recovery_fit"]
 
 
 def local_arc_level(
@@ -356,6 +358,91 @@ def _level_resets(
     return out
 
 
+@dataclass(frozen=True)
+class RecoveryFit:
+    """Sliding fits of a recovery waveform (see :func:`recovery_fit`).
+
+    Row ``j`` belongs to the window ``[j, j + window)``; its boundary is sample
+    ``j + window``.
+
+    Attributes
+    ----------
+    residual : numpy.ndarray
+        Rms residual of the fit over the window.
+    amplitude : numpy.ndarray
+        Peak of the fitted oscillation over the window (``√2`` × rms about its mean).
+    departure : numpy.ndarray
+        Rms difference between the samples ``[j + window, j + window + ahead)`` and the fit
+        carried forward over them.
+    back : numpy.ndarray
+        Rms difference between the samples ``[j - ahead, j)`` and the fit carried backward
+        (``inf`` for the first ``ahead`` rows).
+    predicted, following : numpy.ndarray
+        The fit carried forward and the samples it is compared with, ``(rows, ahead)``.
+    """
+
+    residual: np.ndarray
+    amplitude: np.ndarray
+    departure: np.ndarray
+    back: np.ndarray
+    predicted: np.ndarray
+    following: np.ndarray
+
+
+def recovery_fit(v: np.ndarray, n_cycle: float, *, window: int, ahead: int) -> RecoveryFit:
+    """Fit ``a·cos + b·sin + τ·(c·cos + d·sin) + e`` at the power frequency over each window.
+
+    The model is a power-frequency sinusoid whose amplitude and phase drift linearly over the
+    window, plus an offset: over a cycle it represents a coupled recovery voltage and, to first
+    order in the detuning, the beat of a shunt-compensated line's free oscillation with it.
+    On uniform samples the basis in time relative to the window is the same for every window
+    (a time shift only rotates ``cos``/``sin`` into each other), so one pseudo-inverse serves
+    all windows.
+
+    Parameters
+    ----------
+    v : numpy.ndarray
+        Uniformly sampled voltage.
+    n_cycle : float
+        Samples per power-frequency cycle.
+    window, ahead : int
+        Fit length and prediction length in samples.
+
+    Returns
+    -------
+    RecoveryFit
+        One row per window position (``len(v) - window - ahead + 1`` rows).
+
+    Raises
+    ------
+    ValueError
+        When ``v`` is shorter than ``window + ahead`` samples.
+    """
+    w, f = int(window), int(ahead)
+    if w < 6 or f < 1 or v.shape[0] < w + f:
+        raise ValueError("recovery_fit needs window >= 6, ahead >= 1 and len(v) >= window + ahead")
+    om = 2.0 * np.pi / n_cycle
+    tau = np.arange(-f, w + f) - (w - 1.0)
+    c, s_ = np.cos(om * tau), np.sin(om * tau)
+    x = np.column_stack([c, s_, tau / n_cycle * c, tau / n_cycle * s_, np.ones_like(tau)])
+    xb, xw, xf = x[:f], x[f : f + w], x[f + w :]
+    pinv = np.linalg.pinv(xw)
+    win = sliding_window_view(np.asarray(v, dtype=np.float64), w + f)
+    past, fut = win[:, :w], win[:, w:]
+    fit = past @ (xw @ pinv).T
+    pred = past @ (xf @ pinv).T
+    rin = np.sqrt(np.mean((past - fit) ** 2, axis=1))
+    amp = np.sqrt(2.0 * np.mean((fit - fit.mean(axis=1, keepdims=True)) ** 2, axis=1))
+    ef = np.sqrt(np.mean((fut - pred) ** 2, axis=1))
+    eb = np.full(rin.shape[0], np.inf)
+    if rin.shape[0] > f:
+        # row j's backward stretch [j - f, j) lies at the start of window row j - f
+        prev = win[: rin.shape[0] - f, :f]
+        back_fit = past[f:] @ (xb @ pinv).T
+        eb[f:] = np.sqrt(np.mean((prev - back_fit) ** 2, axis=1))
+    return RecoveryFit(rin, amp, ef, eb, pred, fut)
+
+
 def _departures(
     record: Record,
     trace: ArcTrace,
@@ -373,6 +460,7 @@ def _departures(
     h_recovered: float = 0.06,
     after_rms_max: float = 0.75,
     back_max: float = 0.4,
+    h_after_min: float | None = None,
     jump_min: float = 0.3,
 ) -> list[Event]:
     """Restrikes seen as the end of an established recovery waveform.
@@ -400,18 +488,9 @@ def _departures(
     lag = max(1, round(n / 4))
     if m < w + f + lag + 1:
         return []
-    om = 2.0 * np.pi / n
-    tau = np.arange(w + f) - (w - 1.0)
-    c, s_ = np.cos(om * tau), np.sin(om * tau)
-    x = np.column_stack([c, s_, tau / n * c, tau / n * s_, np.ones_like(tau)])
-    pinv = np.linalg.pinv(x[:w])
-    win = sliding_window_view(v, w + f)
-    past, fut = win[:, :w], win[:, w:]
-    fit = past @ (x[:w] @ pinv).T
-    pred = past @ (x[w:] @ pinv).T
-    rin = np.sqrt(np.mean((past - fit) ** 2, axis=1))
-    amp = np.sqrt(2.0 * np.mean((fit - fit.mean(axis=1, keepdims=True)) ** 2, axis=1))
-    ef = np.sqrt(np.mean((fut - pred) ** 2, axis=1))
+    fits = recovery_fit(v, n, window=w, ahead=f)
+    rin, amp, ef, eb = fits.residual, fits.amplitude, fits.departure, fits.back
+    pred, fut = fits.predicted, fits.following
     p_rms = np.sqrt(np.mean(pred**2, axis=1))
     collapse = np.sqrt(np.mean(fut**2, axis=1)) / np.maximum(p_rms, 1e-30)
     sig = max(q.noise(role), 1e-12)
@@ -420,7 +499,7 @@ def _departures(
     step = np.abs(fut[:, : min(2, f)] - pred[:, : min(2, f)])
     jump = np.max(step, axis=1)
     jump_score = step[:, 0] / (rin + sig)
-    kk = np.arange(win.shape[0]) + w + a0  # the boundary: first sample after the window
+    kk = np.arange(rin.shape[0]) + w + a0  # the boundary: first sample after the window
     # harmonic ratio of the cycle before each boundary, a quarter cycle earlier
     hrel = kk - lag - trace.start_idx
     h_before = np.full(kk.shape[0], np.inf)
@@ -429,15 +508,6 @@ def _departures(
     rin_l = np.full(kk.shape[0], np.inf)
     amp_l = np.zeros(kk.shape[0])
     rin_l[lag:], amp_l[lag:] = rin[:-lag], amp[:-lag]
-    # the same fit carried a quarter cycle backwards: an established recovery explains it too
-    tau_b = np.arange(-f, w) - (w - 1.0)
-    cb, sb = np.cos(om * tau_b), np.sin(om * tau_b)
-    xb = np.column_stack([cb, sb, tau_b / n * cb, tau_b / n * sb, np.ones_like(tau_b)])
-    win_b = sliding_window_view(v, f + w)  # index i: back [i, i+f), window [i+f, i+f+w)
-    back = win_b[:, :f] - win_b[:, f:] @ (xb[:f] @ pinv).T
-    eb = np.full(kk.shape[0], np.inf)
-    # window index j (boundary kk[j] = a0 + j + w) has its backward stretch in win_b[j - f]
-    eb[f:] = np.sqrt(np.mean(back[: kk.shape[0] - f] ** 2, axis=1))
     with np.errstate(invalid="ignore", divide="ignore"):
         cand = (
             (rin_l < residual_max * amp_l)
@@ -455,6 +525,7 @@ def _departures(
         return out
     t = record.t_s
     hr = trace.hratio
+    h_back = h_on if h_after_min is None else h_after_min
     # a restrike needs an established recovery before it: two are never within 1.25 cycles
     for grp in np.split(idx, np.flatnonzero(np.diff(idx) > 1.25 * n) + 1):
         j = int(grp[np.argmax(jump_score[grp])])
@@ -466,10 +537,10 @@ def _departures(
         h_after = float(np.max(sig_after)) if sig_after.size else float("nan")
         cyc_after = v[kr : kr + round(n)]
         held = float(np.sqrt(2.0 * np.mean(cyc_after**2)) / amp[j]) if cyc_after.size else 1.0
-        if not (h_after >= h_on or held < after_rms_max):
+        if not (h_after >= h_back or held < after_rms_max):
             continue  # the waveform changed but no arc followed (a transient of the recovery)
         dt = 1.0 / q.segment_at(k).rate_hz
-        v_pk = float(np.max(np.abs(past[j, -lag:])))
+        v_pk = float(np.max(np.abs(v[kr - lag : kr])))
         out.append(
             Event(
                 kind="restrike",
@@ -484,7 +555,7 @@ def _departures(
                         f"rms) and fell to {float(collapse[j]):.0%} of it; "
                         + (
                             f"arc signature {h_after:.2f} after it"
-                            if h_after >= h_on
+                            if h_after >= h_back
                             else f"held at {held:.0%} of it over the next cycle"
                         )
                     ),
