@@ -117,10 +117,10 @@ def detect_restrikes(
         Which detectors run: the departure of an established recovery from its waveform
         (default), the collapse of an excursion above the arc level, the reset of a growing
         arc voltage. On the simulated corpus (seeds 2026, 7, 11, 13; docs/detection.md) the
-        departure alone gives observable-restrike precision / recall 0.96 / 0.55; adding the
-        collapse detector 0.42 / 0.57, adding the reset detector 0.38 / 0.55 (the resets
+        departure alone gives observable-restrike precision / recall 0.96 / 0.60; adding the
+        collapse detector 0.44 / 0.62, adding the reset detector 0.40 / 0.60 (the resets
         raise the recall on all truth restrikes, re-breakdowns within a cycle included,
-        from 0.33 to 0.51 at precision 0.60).
+        from 0.36 to 0.55 at precision 0.61).
     dep : dict, optional
         Settings passed to :func:`_departures` (its keyword options).
 
@@ -467,18 +467,34 @@ def _departures(
 ) -> list[Event]:
     """Restrikes seen as the end of an established recovery waveform.
 
-    Over each ``fit_cycles`` window the open-phase voltage is fitted by a power-frequency
-    sinusoid whose amplitude and phase drift linearly (cos, sin, t·cos, t·sin, offset — a
-    recovery voltage, beating on a compensated line, is such a wave over a cycle) and the fit
-    is carried ``ahead_cycles`` forward. A restrike ends an *established* recovery: the fit a
-    quarter cycle earlier is good (residual below ``residual_max`` of its amplitude, the
-    amplitude above ``amplitude_min`` noise σ) and the one-cycle harmonic ratio there is below
-    ``h_recovered``; the waveform then departs from the prediction (rms departure above
-    ``departure_min`` of the amplitude and ``score_min`` times the fit residual plus noise) by
-    falling (rms below ``collapse_max`` of the predicted one). The arc must then be seen
-    again: its harmonic signature (``h_on``) within 2.5 cycles, or the voltage held below
-    ``after_rms_max`` of the recovery amplitude over the cycle after (a brief, faint arc on a
-    compensated line). The instant is the window end with the largest departure score.
+    Over each ``fit_cycles`` window the open-phase voltage is fitted by :func:`recovery_fit`
+    and the fit is carried ``ahead_cycles`` forward and backward. A restrike ends an
+    *established* recovery: the fit over the cycle ending a quarter cycle earlier is good
+    (residual below ``residual_max`` of its amplitude, amplitude above ``amplitude_min``
+    noise σ), the one-cycle harmonic ratio there is below ``h_recovered``, and the last
+    cycle's fit carried backward matches the quarter cycle before it (rms error below
+    ``back_max`` of the amplitude). The waveform then departs from the forward prediction
+    (rms departure above ``departure_min`` of the amplitude and ``score_min`` times the
+    recovery's fit residual plus noise) abruptly (the first two samples by ``jump_min`` of
+    the amplitude) and by falling (rms below ``collapse_max`` of the predicted one). The arc
+    must then be seen again: its harmonic signature (``h_after_min``, default ``h_on``)
+    within 2.5 cycles, or the voltage held below ``after_rms_max`` of the recovery amplitude
+    over the cycle after (a brief, faint arc on a compensated line). Candidates within 1.25
+    cycles are one restrike, placed at the boundary whose first sample departs most.
+
+    Parameters
+    ----------
+    record, trace, q, b
+        The record, its arc trace, shared quantities and the end of the range (exclusive).
+    h_on, fit_cycles, ahead_cycles, residual_max, amplitude_min, departure_min, score_min,
+    collapse_max, h_recovered, after_rms_max, back_max, h_after_min, jump_min
+        The settings above (defaults chosen on the simulated corpus seeds 2026, 7, 11, 13
+        and the hand-built sweep; docs/detection.md).
+
+    Returns
+    -------
+    list of Event
+        ``kind="restrike"`` events.
     """
     role = V_LINE[trace.phase]
     n = trace.n_cycle
@@ -510,6 +526,9 @@ def _departures(
     rin_l = np.full(kk.shape[0], np.inf)
     amp_l = np.zeros(kk.shape[0])
     rin_l[lag:], amp_l[lag:] = rin[:-lag], amp[:-lag]
+    # the departure counts against the residual of the established recovery (the fit a
+    # quarter cycle earlier may be the cleaner one when the boundary falls a sample late)
+    score = ef / (np.minimum(rin, rin_l) + sig)
     with np.errstate(invalid="ignore", divide="ignore"):
         cand = (
             (rin_l < residual_max * amp_l)
