@@ -117,8 +117,8 @@ def detect_restrikes(
         Which detectors run: the departure of an established recovery from its waveform
         (default), the collapse of an excursion above the arc level, the reset of a growing
         arc voltage. On the simulated corpus (seeds 2026, 7, 11, 13; docs/detection.md) the
-        departure alone gives observable-restrike precision / recall 0.96 / 0.60; adding the
-        collapse detector 0.44 / 0.62, adding the reset detector 0.40 / 0.60 (the resets
+        departure alone gives observable-restrike precision / recall 0.96 / 0.59; adding the
+        collapse detector 0.45 / 0.61, adding the reset detector 0.41 / 0.59 (the resets
         raise the recall on all truth restrikes, re-breakdowns within a cycle included,
         from 0.36 to 0.55 at precision 0.61).
     dep : dict, optional
