@@ -25,7 +25,8 @@ def test_recovery_fit_represents_a_drifting_sinusoid_exactly() -> None:
     v = (1000.0 + 3.0 * k) * np.cos(2 * np.pi * k / n + 0.7) + 250.0
     fit = recovery_fit(v, n, window=32, ahead=8)
     scale = float(np.max(np.abs(v)))
-    assert np.max(fit.residual) < 1e-9 * scale
+    # the residual is an energy difference: zero to rounding, about √ε·scale
+    assert np.max(fit.residual) < 1e-6 * scale
     assert np.max(fit.departure) < 1e-9 * scale
     assert np.max(fit.back[8:]) < 1e-9 * scale
     assert np.all(np.isinf(fit.back[:8]))
@@ -46,7 +47,7 @@ def test_recovery_fit_departure_of_a_collapse_is_the_missing_wave() -> None:
     fit = recovery_fit(v, n, window=40, ahead=ahead)
     j = k0 - 40  # row whose window is [k0 - 40, k0)
     missing = 5000.0 * np.sin(2 * np.pi * np.arange(k0, k0 + ahead) / n + 0.3)
-    assert fit.residual[j] < 1e-9 * 5000.0
+    assert fit.residual[j] < 1e-6 * 5000.0  # an energy difference: zero to rounding
     assert fit.departure[j] == pytest.approx(float(np.sqrt(np.mean(missing**2))), rel=1e-9)
     assert np.allclose(fit.following[j], 0.0)
 

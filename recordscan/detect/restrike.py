@@ -428,20 +428,31 @@ def recovery_fit(v: np.ndarray, n_cycle: float, *, window: int, ahead: int) -> R
     c, s_ = np.cos(om * tau), np.sin(om * tau)
     x = np.column_stack([c, s_, tau / n_cycle * c, tau / n_cycle * s_, np.ones_like(tau)])
     xb, xw, xf = x[:f], x[f : f + w], x[f + w :]
-    pinv = np.linalg.pinv(xw)
-    win = sliding_window_view(np.asarray(v, dtype=np.float64), w + f)
-    past, fut = win[:, :w], win[:, w:]
-    fit = past @ (xw @ pinv).T
-    pred = past @ (xf @ pinv).T
-    rin = np.sqrt(np.mean((past - fit) ** 2, axis=1))
-    amp = np.sqrt(2.0 * np.mean((fit - fit.mean(axis=1, keepdims=True)) ** 2, axis=1))
+    # xw = Q·R: the fit of a window is Q·(Qᵀ·v), its coefficients R⁻¹·Qᵀ·v
+    qm, rm = np.linalg.qr(xw)
+    rinv = np.linalg.inv(rm)
+    v = np.asarray(v, dtype=np.float64)
+    rows = v.shape[0] - w - f + 1
+    # Qᵀ·v for every window at once (one correlation per basis column)
+    proj = np.empty((rows, qm.shape[1]))
+    for col in range(qm.shape[1]):
+        proj[:, col] = np.correlate(v[: rows + w - 1], qm[:, col], mode="valid")
+    csum = np.concatenate(([0.0], np.cumsum(v * v)))
+    energy = csum[w : w + rows] - csum[:rows]
+    rin = np.sqrt(np.maximum(energy - np.sum(proj * proj, axis=1), 0.0) / w)
+    # the fitted oscillation about its mean: (I - 11ᵀ/w)·Q·p
+    centred = qm - qm.mean(axis=0, keepdims=True)
+    gram = centred.T @ centred
+    amp = np.sqrt(np.maximum(2.0 / w * np.einsum("ij,jk,ik->i", proj, gram, proj), 0.0))
+    coef = proj @ rinv.T
+    pred = coef @ xf.T
+    fut = sliding_window_view(v[w:], f)[:rows]
     ef = np.sqrt(np.mean((fut - pred) ** 2, axis=1))
-    eb = np.full(rin.shape[0], np.inf)
-    if rin.shape[0] > f:
-        # row j's backward stretch [j - f, j) lies at the start of window row j - f
-        prev = win[: rin.shape[0] - f, :f]
-        back_fit = past[f:] @ (xb @ pinv).T
-        eb[f:] = np.sqrt(np.mean((prev - back_fit) ** 2, axis=1))
+    eb = np.full(rows, np.inf)
+    if rows > f:
+        # row j's backward stretch [j - f, j)
+        prev = sliding_window_view(v, f)[: rows - f]
+        eb[f:] = np.sqrt(np.mean((prev - coef[f:] @ xb.T) ** 2, axis=1))
     return RecoveryFit(rin, amp, ef, eb, pred, fut)
 
 
