@@ -762,6 +762,31 @@ def analyse(
             beat_check=ld is not None and ld.compensation > 0,
             free_frequency_hz=est_fn,
         )
+        if ext.extinction_s is not None and restrikes and restrikes[-1].t_s > ext.extinction_s:
+            # the arc burned again after the extinction found (a restrike after a recovery
+            # of a cycle or more): the final extinction follows the last restrike
+            t_r = restrikes[-1].t_s
+            again = detect_extinction(
+                record,
+                phase=p,
+                arc_start_s=t_r,
+                until_s=until,
+                quantities=q,
+                h_on=opts.h_on,
+                h_off=opts.h_off,
+                level_min=level_min,
+                refine_record=full if full is not record else None,
+                weak_margin=opts.weak_margin,
+                weak_tail=opts.weak_tail,
+                beat_check=ld is not None and ld.compensation > 0,
+                free_frequency_hz=est_fn,
+            )
+            ext = dataclasses.replace(
+                again,
+                arc_start_s=arc_start,
+                burning_intervals=tuple(i for i in ext.burning_intervals if i[0] < t_r)
+                + again.burning_intervals,
+            )
         if expect_pu is not None:
             ext = _bolted_check(ext, q, p, until, expect_pu)
         warns += list(ext.warnings)
