@@ -154,6 +154,16 @@ def _current_zero_opening(
     if k is None or k <= after_idx:
         # never interrupted, or already quiet: it carried no current to interrupt
         return None
+    # an open pole carries only noise; a lightly loaded healthy phase back at its pre-fault
+    # current can stay under a noise-set threshold sample by sample, but not in RMS
+    sigma = q.noise(I_LINE[phase])
+    pre = finite_values(i[max(after_idx - int(2 * n), 0) : max(after_idx - int(0.25 * n), 0)])
+    post = finite_values(i[k : k + int(n)])
+    if pre.size and post.size and sigma > 0:
+        pre_rms = float(np.sqrt(np.mean(pre * pre)))
+        post_rms = float(np.sqrt(np.mean(post * post)))
+        if pre_rms > 3.0 * sigma and post_rms > max(2.0 * sigma, 0.25 * pre_rms):
+            return None
     return k, thr
 
 
