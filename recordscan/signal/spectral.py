@@ -432,7 +432,7 @@ def fit_beat(
     lo, hi = max(0.3 * f_hz, f_guess - step), min(1.7 * f_hz, f_guess + step)
     free_fit = _FreeComponentFit(x, t, fixed)
     with np.errstate(all="ignore"):
-        fn = golden_min(free_fit, lo, hi, tol=0.01)
+        fn = golden_min(free_fit, lo, hi, tol=0.05)
         coef2, res2 = free_fit.fit(fn)
     forced2 = float(np.hypot(coef2[1], coef2[2]) / np.sqrt(2.0))
     free2 = float(np.hypot(coef2[3], coef2[4]) / np.sqrt(2.0))
