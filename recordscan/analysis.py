@@ -746,41 +746,25 @@ def analyse(
         )
         # the arc burns again after each restrike, even if too briefly for the signature
         tr = with_burning_after(tr, [q.idx(r.t_s) for r in restrikes], q.idx(until))
-        ext = detect_extinction(
-            record,
-            phase=p,
-            arc_start_s=arc_start,
-            until_s=until,
-            quantities=q,
-            h_on=opts.h_on,
-            h_off=opts.h_off,
-            level_min=level_min,
-            trace=tr,
-            refine_record=full if full is not record else None,
-            weak_margin=opts.weak_margin,
-            weak_tail=opts.weak_tail,
-            beat_check=ld is not None and ld.compensation > 0,
-            free_frequency_hz=est_fn,
-        )
+        ext_opts: dict[str, Any] = {
+            "phase": p,
+            "until_s": until,
+            "quantities": q,
+            "h_on": opts.h_on,
+            "h_off": opts.h_off,
+            "level_min": level_min,
+            "refine_record": full if full is not record else None,
+            "weak_margin": opts.weak_margin,
+            "weak_tail": opts.weak_tail,
+            "beat_check": ld is not None and ld.compensation > 0,
+            "free_frequency_hz": est_fn,
+        }
+        ext = detect_extinction(record, arc_start_s=arc_start, trace=tr, **ext_opts)
         if ext.extinction_s is not None and restrikes and restrikes[-1].t_s > ext.extinction_s:
             # the arc burned again after the extinction found (a restrike after a recovery
             # of a cycle or more): the final extinction follows the last restrike
             t_r = restrikes[-1].t_s
-            again = detect_extinction(
-                record,
-                phase=p,
-                arc_start_s=t_r,
-                until_s=until,
-                quantities=q,
-                h_on=opts.h_on,
-                h_off=opts.h_off,
-                level_min=level_min,
-                refine_record=full if full is not record else None,
-                weak_margin=opts.weak_margin,
-                weak_tail=opts.weak_tail,
-                beat_check=ld is not None and ld.compensation > 0,
-                free_frequency_hz=est_fn,
-            )
+            again = detect_extinction(record, arc_start_s=t_r, **ext_opts)
             ext = dataclasses.replace(
                 again,
                 arc_start_s=arc_start,
