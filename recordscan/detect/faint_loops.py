@@ -120,8 +120,9 @@ def faint_loops_end(
         return None
     lo = max(k0 - int(0.5 * n), 0)
     x = np.asarray(v[a:b], dtype=np.float64)
-    coef, *_ = np.linalg.lstsq(_basis(t[a:b] - t[a], f_hz, free_hz), x, rcond=None)
-    sigma = float(np.sqrt(np.mean((x - _basis(t[a:b] - t[a], f_hz, free_hz) @ coef) ** 2)))
+    m = _basis(t[a:b] - t[a], f_hz, free_hz)
+    coef, *_ = np.linalg.lstsq(m, x, rcond=None)
+    sigma = float(np.sqrt(np.mean((x - m @ coef) ** 2)))
     back = _basis(t[lo:a] - t[a], f_hz, free_hz) @ coef
     res = np.abs(np.asarray(v[lo:a], dtype=np.float64) - back)
     # the noise, but never below a per cent of the recovery voltage (noise-free or
