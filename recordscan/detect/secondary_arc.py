@@ -570,17 +570,19 @@ def detect_extinction(
     # ring-down): look for departures from the recovery waveform just after the instant
     fl = None
     # (not after a step of the level, a sharp change that the CVT's transient then follows,
-    # nor after the onset of the beat; nor on a compensated line with its line description,
-    # where the recovery beats and the fit's extrapolation moved about as many answers away
-    # from the truth as towards it: +3 of 223 on the dev corpora, and four compensated
-    # answers of the indirect-fit corpus made wrong)
-    if not beat_check and not method.startswith(("onset", "last step")):
+    # nor after the onset of the beat)
+    if not method.startswith(("onset", "last step")):
         fl = faint_loops_in_record(
             refine_record or record,
             role,
             f_hz=q.f_hz,
             t_ext_s=t_ext,
             t_end_s=observed,
+            free_hz=(
+                (rd.free_frequency_hz if rd is not None else free_frequency_hz)
+                if beat_check
+                else None
+            ),
             max_departure_v=arc_amp,
         )
     if fl is not None:
