@@ -49,10 +49,16 @@ class FaintLoops:
     peak_departure_v: float
 
 
-def _basis(x: np.ndarray, f_hz: float, free_hz: float | None) -> np.ndarray:
+def _basis(
+    x: np.ndarray, f_hz: float, free_hz: float | None, *, curvature: bool = True
+) -> np.ndarray:
+    """Recovery-waveform columns: sinusoid at f, offset, slope (in cycles), optionally the
+    curvature and the free oscillation at ``free_hz``."""
     w = 2.0 * np.pi * f_hz
     y = x * f_hz
-    cols = [np.cos(w * x), np.sin(w * x), np.ones_like(x), y, y * y]
+    cols = [np.cos(w * x), np.sin(w * x), np.ones_like(x), y]
+    if curvature:
+        cols.append(y * y)
     if free_hz is not None:
         wn = 2.0 * np.pi * free_hz
         cols += [np.cos(wn * x), np.sin(wn * x)]
@@ -225,10 +231,9 @@ def recovered_tail(
     lo = a - int(np.ceil(search_cycles * n))
     if lo < 0 or a - lo < 4:
         return None
-    w = 2.0 * np.pi * f_hz
 
     def basis(x: np.ndarray) -> np.ndarray:
-        return np.stack([np.cos(w * x), np.sin(w * x), np.ones_like(x), x * f_hz], axis=1)
+        return _basis(x, f_hz, None, curvature=False)
 
     x = np.asarray(v[a:kb], dtype=np.float64)
     m = basis(t[a:kb] - t[a])

@@ -146,7 +146,8 @@ def _current_zero_opening(
     if i is None:
         return None
     n = q.n_cycle(after_idx)
-    thr, _ = current_quiet_threshold(i, start=after_idx, n_cycle=n, sigma=q.noise(I_LINE[phase]))
+    sigma = q.noise(I_LINE[phase])
+    thr, _ = current_quiet_threshold(i, start=after_idx, n_cycle=n, sigma=sigma)
     quiet = np.abs(finite_values(i[after_idx:])) < thr
     k = first_sustained(quiet, n_hold=max(3, round(quiet_cycles * n)))
     if k is not None:
@@ -156,7 +157,6 @@ def _current_zero_opening(
         return None
     # an open pole carries only noise; a lightly loaded healthy phase back at its pre-fault
     # current can stay under a noise-set threshold sample by sample, but not in RMS
-    sigma = q.noise(I_LINE[phase])
     pre = finite_values(i[max(after_idx - int(2 * n), 0) : max(after_idx - int(0.25 * n), 0)])
     post = finite_values(i[k : k + int(n)])
     if pre.size and post.size and sigma > 0:
